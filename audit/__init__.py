@@ -1,0 +1,3 @@
+"""valve-audit: screen a plant's control valves against IEC 60534, a whole line list at a time."""
+__version__ = "0.1.0"
+OUTPUT_FORMAT_VERSION = "1"  # bump when the meaning of an output column changes
