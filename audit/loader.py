@@ -1,0 +1,512 @@
+"""Line-list loader: CSV or XLSX in, SI tables of valves and valve-cases out.
+
+Follows ../shared/spec/linelist.md.  The loader never raises for anything
+inside a line list: every problem becomes a message naming the column, the
+value and what was expected, attached to its row (the row is rejected) or
+to one operating case (the valve keeps its other cases).
+
+Output of ``load_linelist``:
+- ``valves``: one row per accepted valve, SI units, indexed 0..n-1;
+- ``cases``: one row per (valve, case) the row fills in, long form, with
+  ``valve`` pointing into ``valves`` and ``case_error`` holding a reason
+  when that case cannot be audited;
+- ``rejected``: row number (header = 1), tag and reason.
+"""
+from __future__ import annotations
+
+import os
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from . import pipes, styles
+from .properties import Fluid, resolve_fluid
+from .units import P_STD, _clip, parse_column
+
+CASE_FIELDS = {  # prefix: (kind, default unit)
+    "flow": ("flow", ""),          # default depends on the phase: m3/h liquid, kg/h gas
+    "p_in": ("pressure", "bar"),
+    "p_out": ("pressure", "bar"),
+    "t_in": ("temperature", "degC"),
+    "travel": ("percent", "%"),
+}
+CASE_COLUMN = re.compile(r"^(flow|p_in|p_out|t_in|travel)_([a-z0-9_]+)$")
+
+NUMERIC = {  # column: (kind, default unit)
+    "density": ("density", "kg/m3"),
+    "vapour_pressure": ("pressure", "kPa"),
+    "critical_pressure": ("pressure", "kPa"),
+    "viscosity": ("viscosity", "cP"),
+    "molar_mass": ("molar_mass", "kg/kmol"),
+    "k": ("dimensionless", ""),
+    "z": ("dimensionless", ""),
+    "sound_speed": ("velocity", "m/s"),
+    "valve_size": ("length", "mm"),
+    "rated_cv": ("dimensionless", ""),
+    "rated_kv": ("dimensionless", ""),
+    "rangeability": ("dimensionless", ""),
+    "fl": ("dimensionless", ""),
+    "xt": ("dimensionless", ""),
+    "fd": ("dimensionless", ""),
+    "xfz": ("dimensionless", ""),
+    "pipe_in_id": ("length", "mm"),
+    "pipe_out_id": ("length", "mm"),
+    "pipe_in_size": ("length", "in"),
+    "pipe_out_size": ("length", "in"),
+    "pipe_out_wall": ("length", "mm"),
+    "noise_limit": ("dba", "dBA"),
+    "velocity_limit": ("velocity", "m/s"),
+}
+TEXT = ("tag", "area", "service", "fluid", "phase", "characteristic", "valve_style",
+        "pipe_in_schedule", "pipe_out_schedule")
+CHARACTERISTICS = ("linear", "equal_percentage", "quick_opening")
+OVERRIDES = ("density", "vapour_pressure", "critical_pressure", "viscosity", "molar_mass", "k", "z")
+CUSTOM_NEEDS = {"liquid": ("density", "vapour_pressure", "critical_pressure", "viscosity"),
+                "gas": ("molar_mass", "k", "z", "viscosity")}
+PIPE_NARROWER_LIMIT = 0.75  # pipe bore below this share of the valve size is refused
+
+PHASE_WORDS = {"liquid": "liquid", "gas": "gas", "vapour": "gas", "vapor": "gas", "steam": "gas"}
+
+
+@dataclass
+class Limits:
+    """Refusal limits for an input, so a huge or hostile file is refused, not ground through."""
+    max_bytes: int = 50_000_000
+    max_rows: int = 100_000
+    max_cell_chars: int = 10_000
+
+
+class InputError(Exception):
+    """The input as a whole cannot be read (missing, unreadable, over a limit)."""
+
+
+@dataclass
+class LineList:
+    valves: pd.DataFrame
+    cases: pd.DataFrame
+    rejected: pd.DataFrame
+    ignored_columns: list[str] = field(default_factory=list)
+    rows_total: int = 0
+
+
+def normalise_header(raw: str) -> tuple[str, str]:
+    """'P_in max [barg]' -> ('p_in_max', 'barg').  Spaces and hyphens count as underscores."""
+    text = str(raw).strip()
+    unit = ""
+    m = re.match(r"^(.*?)\s*\[(.*)\]\s*$", text)
+    if m:
+        text, unit = m.group(1), m.group(2).strip()
+    name = re.sub(r"[\s\-]+", "_", text.strip().lower())
+    return name, unit
+
+
+def read_table(path: Path, sheet: str | None, limits: Limits) -> pd.DataFrame:
+    """Read every cell as text (CSV) or as stored (XLSX, cached values, formulas not evaluated)."""
+    if not path.exists():
+        raise InputError(f"the line list '{path}' does not exist")
+    size = path.stat().st_size
+    if size > limits.max_bytes:
+        raise InputError(f"the line list is {size:,} bytes, over the limit of {limits.max_bytes:,} "
+                         "(raise it with --max-bytes if the file is genuine)")
+    suffix = path.suffix.lower()
+    try:
+        if suffix in (".xlsx", ".xlsm"):
+            frame = _read_xlsx(path, sheet)
+        elif suffix in (".csv", ".txt"):
+            frame = pd.read_csv(path, dtype=str, keep_default_na=False, encoding="utf-8-sig",
+                                sep=None, engine="python")
+        else:
+            raise InputError(f"'{path.name}': expected a .csv or .xlsx line list")
+    except InputError:
+        raise
+    except Exception as exc:  # any reader failure is the file's, not the tool's
+        raise InputError(f"could not read '{path.name}': {str(exc)[:200]}") from None
+    if len(frame) > limits.max_rows:
+        raise InputError(f"the line list has {len(frame):,} rows, over the limit of {limits.max_rows:,} "
+                         "(raise it with --max-rows if the file is genuine)")
+    return frame
+
+
+def _read_xlsx(path: Path, sheet: str | None) -> pd.DataFrame:
+    """XLSX through calamine when installed (fast), else openpyxl read-only.
+
+    Both return the values the spreadsheet stored; neither evaluates a
+    formula nor follows an external link.
+    """
+    try:
+        from python_calamine import CalamineWorkbook
+    except ImportError:
+        CalamineWorkbook = None
+    if CalamineWorkbook is not None:
+        book = CalamineWorkbook.from_path(str(path))
+        name = sheet or book.sheet_names[0]
+        if name not in book.sheet_names:
+            raise InputError(f"'{path.name}' has no sheet '{sheet}'; it has {', '.join(book.sheet_names)}")
+        rows = book.get_sheet_by_name(name).to_python(skip_empty_area=False)
+    else:
+        import openpyxl
+        book = openpyxl.load_workbook(path, read_only=True, data_only=True, keep_links=False)
+        name = sheet or book.sheetnames[0]
+        if name not in book.sheetnames:
+            raise InputError(f"'{path.name}' has no sheet '{sheet}'; it has {', '.join(book.sheetnames)}")
+        rows = [list(r) for r in book[name].iter_rows(values_only=True)]
+        book.close()
+    if not rows:
+        return pd.DataFrame()
+    header = ["" if h is None else str(h) for h in rows[0]]
+    body = [["" if v is None else v for v in r] + [""] * (len(header) - len(r)) for r in rows[1:]]
+    return pd.DataFrame([r[:len(header)] for r in body], columns=header, dtype=object)
+
+
+class _Reasons:
+    """Accumulates per-row problems; a row with any problem is rejected."""
+
+    def __init__(self, n: int):
+        self.text = [[] for _ in range(n)]
+
+    def add(self, mask: np.ndarray, message) -> None:
+        for i in np.flatnonzero(mask):
+            self.text[i].append(message(i) if callable(message) else message)
+
+    def add_array(self, messages: np.ndarray) -> None:
+        for i in np.flatnonzero(messages != ""):
+            self.text[i].append(messages[i])
+
+    def bad(self) -> np.ndarray:
+        return np.array([bool(t) for t in self.text], dtype=bool)
+
+    def joined(self, i: int) -> str:
+        return "; ".join(self.text[i])
+
+
+def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: float = P_STD,
+                  limits: Limits | None = None) -> LineList:
+    """Read and validate a line list; see the module docstring for what comes back.
+
+    path: CSV or XLSX; sheet: XLSX sheet name (default the first);
+    p_atm: site atmospheric pressure [Pa] for gauge units where the row has
+    no `p_atm`; limits: size limits of the input.
+    Raises InputError only when the file as a whole cannot be read.
+    """
+    limits = limits or Limits()
+    path = Path(path)
+    raw = read_table(path, sheet, limits)
+    columns, units, ignored = _columns(raw)
+    table = pd.DataFrame({name: raw.iloc[:, pos] for name, pos in columns.items()})
+    table = table.astype(object).where(table.notna(), "")
+    blank = table.apply(lambda col: col.astype(str).str.strip() == "").all(axis=1).to_numpy() \
+        if len(table.columns) else np.ones(len(raw), dtype=bool)
+    table = table.loc[~blank].reset_index(drop=True)
+    row_numbers = np.flatnonzero(~blank) + 2  # header is spreadsheet row 1
+    n = len(table)
+    reasons = _Reasons(n)
+    text = {c: _text(table, c) for c in TEXT}
+    _check_cell_length(table, limits, reasons)
+
+    site = np.full(n, float(p_atm))
+    if "p_atm" in table:
+        parsed = parse_column(table["p_atm"], "pressure", units.get("p_atm", ""), "kPa", "p_atm", site)
+        reasons.add_array(parsed.errors)
+        site = np.where(np.isfinite(parsed.values), parsed.values, site)
+    num = {}
+    for col, (kind, default) in NUMERIC.items():
+        if col in table:
+            parsed = parse_column(table[col], kind, units.get(col, ""), default, col, site)
+            reasons.add_array(parsed.errors)
+            num[col] = parsed.values
+        else:
+            num[col] = np.full(n, np.nan)
+
+    valves = pd.DataFrame({"row": row_numbers, "p_atm": site})
+    for c in ("tag", "area", "service"):
+        valves[c] = text[c]
+    _identity(text["tag"], reasons)
+    fluids = _fluids(text, num, reasons, valves)
+    _valve(text, num, reasons, valves)
+    _piping(text, num, reasons, valves)
+    valves["noise_limit"] = num["noise_limit"]
+    valves["velocity_limit"] = num["velocity_limit"]
+    for col in OVERRIDES + ("sound_speed",):
+        valves[col] = num[col]
+    valves["overridden"] = [", ".join(c for c in OVERRIDES if np.isfinite(num[c][i])
+                                      and not valves["custom"][i]) for i in range(n)]
+
+    cases = _cases(table, units, site, n)
+    has_case = np.zeros(n, dtype=bool)
+    if len(cases):
+        has_case[cases["valve"].to_numpy()] = True
+    reasons.add(~has_case, "no operating case: fill flow_<case>, p_in_<case>, p_out_<case> and "
+                           "t_in_<case> for at least one case (for example flow_max)")
+    if len(cases):
+        good_case = cases.groupby("valve")["case_error"].apply(lambda e: (e == "").any())
+        all_bad = np.zeros(n, dtype=bool)
+        all_bad[good_case.index[~good_case.to_numpy()]] = True
+        case_msgs = cases.groupby("valve").apply(
+            lambda g: "; ".join(f"case {c}: {e}" for c, e in zip(g["case"], g["case_error"]) if e),
+            include_groups=False)
+        reasons.add(all_bad, lambda i: case_msgs[i])
+
+    bad = reasons.bad()
+    rejected = pd.DataFrame({"row": row_numbers[bad], "tag": text["tag"][bad],
+                             "reason": [reasons.joined(i) for i in np.flatnonzero(bad)]})
+    keep = np.flatnonzero(~bad)
+    remap = -np.ones(n, dtype=int)
+    remap[keep] = np.arange(len(keep))
+    valves = valves.iloc[keep].reset_index(drop=True)
+    valves["fluid_obj"] = [fluids[i] for i in keep]
+    if len(cases):
+        cases = cases[~bad[cases["valve"].to_numpy()]].copy()
+        cases["valve"] = remap[cases["valve"].to_numpy()]
+        cases = cases.reset_index(drop=True)
+    return LineList(valves, cases, rejected, ignored, rows_total=n)
+
+
+def _columns(raw: pd.DataFrame) -> tuple[dict[str, int], dict[str, str], list[str]]:
+    known = set(NUMERIC) | set(TEXT) | {"p_atm"}
+    columns, units, ignored = {}, {}, []
+    for pos, header in enumerate(raw.columns):
+        name, unit = normalise_header(header)
+        if not name:
+            continue
+        if name in columns:
+            raise InputError(f"column '{name}' appears twice in the header (columns {columns[name] + 1} "
+                             f"and {pos + 1}); keep one")
+        if name in known or CASE_COLUMN.match(name):
+            columns[name] = pos
+            units[name] = unit
+        else:
+            ignored.append(str(header)[:60])
+    if "tag" not in columns:
+        raise InputError("the line list has no 'tag' column; the header row must name the columns "
+                         "as ../shared/spec/linelist.md fixes them")
+    return columns, units, ignored
+
+
+def _text(table: pd.DataFrame, col: str) -> np.ndarray:
+    if col not in table:
+        return np.full(len(table), "", dtype=object)
+    return table[col].map(lambda v: str(v).strip()).to_numpy(dtype=object)
+
+
+def _check_cell_length(table: pd.DataFrame, limits: Limits, reasons: _Reasons) -> None:
+    for col in table.columns:
+        lengths = table[col].map(lambda v: len(str(v))).to_numpy()
+        reasons.add(lengths > limits.max_cell_chars,
+                    lambda i, col=col, lengths=lengths: f"column '{col}': a cell of {lengths[i]:,} characters, "
+                    f"over the limit of {limits.max_cell_chars:,}")
+
+
+def _identity(tags: np.ndarray, reasons: _Reasons) -> None:
+    reasons.add(tags == "", "column 'tag' is blank; every valve needs a tag")
+    series = pd.Series(tags)
+    dup = series.duplicated(keep=False).to_numpy() & (tags != "")
+    reasons.add(dup, lambda i: f"column 'tag': '{_clip(tags[i])}' appears more than once in the file; "
+                               "every copy is rejected until the tag is unique")
+
+
+def _fluids(text, num, reasons: _Reasons, valves: pd.DataFrame) -> list[Fluid | None]:
+    n = len(valves)
+    fluids: list[Fluid | None] = [None] * n
+    custom = np.zeros(n, dtype=bool)
+    phase = np.full(n, "", dtype=object)
+    cache: dict[str, tuple[Fluid | None, str]] = {}
+    for i in range(n):
+        word = text["phase"][i].lower()
+        if word:
+            if word not in PHASE_WORDS:
+                reasons.text[i].append(f"column 'phase': '{_clip(text['phase'][i])}' is not one of "
+                                       "liquid, gas, vapour, steam")
+            phase[i] = PHASE_WORDS.get(word, "")
+        name = text["fluid"][i]
+        if not name:
+            reasons.text[i].append("column 'fluid' is blank; give a CoolProp fluid name, a mixture or 'custom'")
+            continue
+        if name.lower() == "custom":
+            custom[i] = True
+            if not phase[i]:
+                phase[i] = "liquid" if np.isfinite(num["vapour_pressure"][i]) else (
+                    "gas" if np.isfinite(num["molar_mass"][i]) else "")
+            if not phase[i]:
+                reasons.text[i].append("fluid 'custom' needs column 'phase' (liquid or gas) or the overrides "
+                                       "of one phase")
+                continue
+            missing = [c for c in CUSTOM_NEEDS[phase[i]] if not np.isfinite(num[c][i])]
+            if missing:
+                reasons.text[i].append(f"fluid 'custom' ({phase[i]}) needs column(s) {', '.join(missing)}")
+            continue
+        if name not in cache:
+            cache[name] = resolve_fluid(name)
+        fluids[i], problem = cache[name]
+        if problem:
+            reasons.text[i].append(problem)
+    _range(num, "density", reasons, low=0.0, what="a density above 0 kg/m3")
+    _range(num, "viscosity", reasons, low=0.0, what="a viscosity above 0")
+    _range(num, "molar_mass", reasons, low=0.0, what="a molar mass above 0 kg/kmol")
+    _range(num, "k", reasons, low=1.0, what="a ratio of specific heats above 1", low_inclusive=False)
+    _range(num, "z", reasons, low=0.0, what="a compressibility factor above 0")
+    _range(num, "vapour_pressure", reasons, low=0.0, what="a vapour pressure above 0", low_inclusive=True)
+    _range(num, "critical_pressure", reasons, low=0.0, what="a critical pressure above 0")
+    valves["custom"] = custom
+    valves["phase_given"] = phase
+    valves["fluid"] = text["fluid"]
+    return fluids
+
+
+def _range(num, col, reasons, low=None, high=None, what="", low_inclusive=False, high_inclusive=True):
+    v = num[col]
+    finite = np.isfinite(v)
+    bad = np.zeros(len(v), dtype=bool)
+    if low is not None:
+        bad |= finite & ((v < low) if low_inclusive else (v <= low))
+    if high is not None:
+        bad |= finite & ((v > high) if high_inclusive else (v >= high))
+    reasons.add(bad, lambda i: f"column '{col}': {v[i]:g} is out of range; expected {what}")
+
+
+def _valve(text, num, reasons: _Reasons, valves: pd.DataFrame) -> None:
+    n = len(valves)
+    size = num["valve_size"]
+    reasons.add(~np.isfinite(size), "column 'valve_size' is blank; the valve size is needed")
+    _range(num, "valve_size", reasons, low=0.0, what="a size above 0")
+    cv = np.where(np.isfinite(num["rated_cv"]), num["rated_cv"], num["rated_kv"] * 1.156)
+    both_blank = ~np.isfinite(cv)
+    reasons.add(both_blank, "columns 'rated_cv' and 'rated_kv' are both blank; one is needed")
+    reasons.add(np.isfinite(cv) & (cv <= 0), lambda i: f"rated flow coefficient {cv[i]:g} (Cv) must be above 0")
+    _range(num, "rangeability", reasons, low=1.0, what="an inherent rangeability above 1")
+    characteristic = np.array([c.lower().replace(" ", "_").replace("-", "_").replace("%", "percentage")
+                               or "equal_percentage" for c in text["characteristic"]], dtype=object)
+    characteristic = np.where(np.isin(characteristic, ["equal_percent", "eq_percentage", "=%", "ep"]),
+                              "equal_percentage", characteristic)
+    reasons.add(~np.isin(characteristic, CHARACTERISTICS),
+                lambda i: f"column 'characteristic': '{_clip(text['characteristic'][i])}' is not one of "
+                          f"{', '.join(CHARACTERISTICS)}")
+    fl, xt, fd = num["fl"].copy(), num["xt"].copy(), num["fd"].copy()
+    _range(num, "fl", reasons, low=0.0, high=1.0, what="0 < FL <= 1")
+    _range(num, "xt", reasons, low=0.0, high=1.0, what="0 < xT < 1", high_inclusive=False)
+    _range(num, "fd", reasons, low=0.0, high=1.0, what="0 < Fd <= 1")
+    _range(num, "xfz", reasons, low=0.0, high=1.0, what="0 < xFz <= 1")
+    style = np.array([styles.normalise_style(s) for s in text["valve_style"]], dtype=object)
+    typical = np.full(n, "", dtype=object)
+    gasish = np.array([p == "gas" for p in valves.get("phase_given", [""] * n)])
+    for i in range(n):
+        needed = [("fl", fl), ("fd", fd), ("xt", xt)]
+        missing = [name for name, arr in needed if not np.isfinite(arr[i])]
+        if not missing:
+            continue
+        if style[i]:
+            if style[i] not in styles.TYPICAL_FACTORS:
+                reasons.text[i].append(f"column 'valve_style': '{_clip(text['valve_style'][i])}' is not one of "
+                                       f"{', '.join(styles.style_names())}")
+                continue
+            f_l, x_t, f_d, _ = styles.TYPICAL_FACTORS[style[i]]
+            fill = {"fl": f_l, "xt": x_t, "fd": f_d}
+            for name, arr in needed:
+                if not np.isfinite(arr[i]):
+                    arr[i] = fill[name]
+            typical[i] = ", ".join(missing)
+        else:
+            need_now = [m for m in missing if m != "xt" or gasish[i]]
+            if need_now:
+                reasons.text[i].append(f"trim factor(s) {', '.join(need_now)} blank and no 'valve_style' "
+                                       "to take typical values from")
+    valves["valve_size"] = size
+    valves["rated_cv"] = cv
+    valves["characteristic"] = characteristic
+    valves["rangeability"] = np.where(np.isfinite(num["rangeability"]), num["rangeability"], 50.0)
+    valves["fl"], valves["xt"], valves["fd"] = fl, xt, fd
+    valves["xfz_given"] = num["xfz"]
+    valves["valve_style"] = style
+    valves["typical_factors"] = typical
+
+
+def _piping(text, num, reasons: _Reasons, valves: pd.DataFrame) -> None:
+    size = valves["valve_size"].to_numpy()
+    for side in ("in", "out"):
+        given = num[f"pipe_{side}_id"]
+        nps = num[f"pipe_{side}_size"] / 0.0254
+        sched = text[f"pipe_{side}_schedule"]
+        from_table, wall, msg = pipes.pipe_dimensions(np.round(nps, 3), sched)
+        has_nps = np.isfinite(nps)
+        reasons.add(has_nps & (sched == "") & ~np.isfinite(given),
+                    f"column 'pipe_{side}_schedule' is blank; a nominal pipe size needs its schedule")
+        reasons.add(has_nps & (sched != "") & (msg != ""),
+                    lambda i, msg=msg, side=side: f"columns 'pipe_{side}_size'/'pipe_{side}_schedule': {msg[i]}")
+        inside = np.where(np.isfinite(given), given, np.where(np.isfinite(from_table), from_table, size))
+        _range({f"pipe_{side}_id": given}, f"pipe_{side}_id", reasons, low=0.0, what="a diameter above 0")
+        # Heavy schedules make the pipe bore a little under the nominal valve size (a 2 in
+        # valve in 2 in schedule 80 pipe): that is no reducer.  Far smaller is a units slip or a
+        # narrowing the reducer equations do not describe.
+        much_smaller = np.isfinite(inside) & np.isfinite(size) & (inside < PIPE_NARROWER_LIMIT * size) & (inside > 0)
+        reasons.add(much_smaller, lambda i, inside=inside, side=side: (
+            f"pipe_{side} inside diameter {inside[i] * 1000:.1f} mm is much smaller than the valve size "
+            f"{size[i] * 1000:.1f} mm; check the units (the methods assume reducers, not a pipe narrower "
+            "than the valve)"))
+        valves[f"pipe_{side}_id"] = inside
+        if side == "out":
+            wall_given = num["pipe_out_wall"]
+            valves["pipe_out_wall"] = np.where(np.isfinite(wall_given), wall_given, wall)
+            _range(num, "pipe_out_wall", reasons, low=0.0, what="a wall thickness above 0")
+
+
+def _cases(table: pd.DataFrame, units: dict, site: np.ndarray, n: int) -> pd.DataFrame:
+    names: dict[str, dict[str, str]] = {}
+    for col in table.columns:
+        m = CASE_COLUMN.match(col)
+        if m:
+            names.setdefault(m.group(2), {})[m.group(1)] = col
+    frames = []
+    for order, (case, cols) in enumerate(names.items()):
+        data = {"valve": np.arange(n), "case": case, "case_order": order}
+        errors = np.full(n, "", dtype=object)
+        filled = np.zeros(n, dtype=bool)
+        for prefix, (kind, default) in CASE_FIELDS.items():
+            col = cols.get(prefix)
+            if col is None:
+                data[prefix] = np.full(n, np.nan)
+                if prefix == "flow":
+                    data["flow_basis"] = np.full(n, "", dtype=object)
+                    data["std_t"] = data["std_p"] = np.full(n, np.nan)
+                continue
+            filled |= table[col].astype(str).str.strip().to_numpy() != ""
+            parsed = parse_column(table[col], kind, units.get(col, ""), default, col, site)
+            errors = np.where((errors == "") & (parsed.errors != ""), parsed.errors, errors)
+            data[prefix] = parsed.values
+            if prefix == "flow":
+                data["flow_basis"] = parsed.flow_basis
+                data["std_t"], data["std_p"] = parsed.std_t, parsed.std_p
+        frame = pd.DataFrame(data)
+        frame["case_error"] = errors
+        frames.append(frame[filled])
+    if not frames:
+        return pd.DataFrame(columns=["valve", "case", "case_order", "case_error"])
+    cases = pd.concat(frames, ignore_index=True)
+    cases["case_error"] = _case_checks(cases)
+    return cases.sort_values(["valve", "case_order"], kind="stable").reset_index(drop=True)
+
+
+def _case_checks(cases: pd.DataFrame) -> np.ndarray:
+    """Physical sense of one operating case; the first problem is its reason."""
+    err = cases["case_error"].to_numpy(dtype=object).copy()
+    flow, p1, p2, t = (cases[c].to_numpy(float) for c in ("flow", "p_in", "p_out", "t_in"))
+    name = cases["case"].to_numpy(dtype=object)
+    checks = [
+        (~np.isfinite(flow), lambda i: f"column 'flow_{name[i]}' is blank"),
+        (~np.isfinite(p1), lambda i: f"column 'p_in_{name[i]}' is blank"),
+        (~np.isfinite(p2), lambda i: f"column 'p_out_{name[i]}' is blank"),
+        (~np.isfinite(t), lambda i: f"column 't_in_{name[i]}' is blank"),
+        (flow <= 0, lambda i: f"column 'flow_{name[i]}': {flow[i]:g} is not a positive flow"),
+        (p1 <= 0, lambda i: f"column 'p_in_{name[i]}': {p1[i] / 1e5:.4g} bar(a) is not above absolute zero"),
+        (p2 <= 0, lambda i: f"column 'p_out_{name[i]}': {p2[i] / 1e5:.4g} bar(a) is not above absolute zero"),
+        (t <= 0, lambda i: f"column 't_in_{name[i]}': {t[i] - 273.15:.4g} degC is below absolute zero"),
+        (p2 > p1, lambda i: f"p_out {p2[i] / 1e5:.4g} bar(a) is above p_in {p1[i] / 1e5:.4g} bar(a); "
+                            "the outlet pressure must be below the inlet pressure"),
+        (p2 == p1, lambda i: f"p_out equals p_in ({p1[i] / 1e5:.4g} bar(a)) with a flow: with no pressure "
+                             "drop a valve passes no flow, so this case cannot be met"),
+    ]
+    for mask, message in checks:
+        for i in np.flatnonzero(mask & (err == "")):
+            err[i] = message(i)
+    return err
