@@ -1,0 +1,44 @@
+"""Water properties from CoolProp (through our batch AbstractState path) against IAPWS-IF97,
+as the `iapws` package implements it.  Tolerance 0.1 % (issue 2)."""
+import numpy as np
+import pytest
+
+iapws = pytest.importorskip("iapws")
+
+from audit.properties import inlet_properties, resolve_fluid  # noqa: E402
+
+WATER, _ = resolve_fluid("Water")
+GRID = [(p, t) for p in (2e5, 10e5, 50e5, 150e5) for t in (283.15, 323.15, 373.15, 423.15, 473.15, 573.15, 673.15)]
+
+
+@pytest.mark.parametrize("p,t", GRID)
+def test_density_and_phase_match_if97(p, t):
+    ref = iapws.IAPWS97(P=p / 1e6, T=t)
+    out = inlet_properties([WATER], np.array([p]), np.array([t]), np.array([""], dtype=object))
+    if out["error"][0]:
+        pytest.fail(out["error"][0])
+    assert out["rho"][0] == pytest.approx(ref.rho, rel=1e-3)
+    assert out["phase"][0] == ("liquid" if ref.x == 0 else "gas")
+
+
+@pytest.mark.parametrize("t", [283.15, 323.15, 373.15, 423.15, 473.15, 523.15, 573.15, 623.15])
+def test_vapour_pressure_matches_if97(t):
+    ref = iapws.IAPWS97(T=t, x=0).P * 1e6
+    out = inlet_properties([WATER], np.array([ref * 2.0]), np.array([t]), np.array([""], dtype=object))
+    assert out["pv"][0] == pytest.approx(ref, rel=1e-3)
+
+
+def test_steam_ratio_of_specific_heats_matches_if97():
+    ref = iapws.IAPWS97(P=1.0, T=523.15)  # 10 bar(a), 250 degC superheated steam
+    out = inlet_properties([WATER], np.array([10e5]), np.array([523.15]), np.array([""], dtype=object))
+    assert out["k"][0] == pytest.approx(ref.cp / ref.cv, rel=1e-3)
+    assert out["phase"][0] == "gas"
+
+
+def test_saturated_inlet_is_refused_unless_the_phase_is_stated():
+    psat = iapws.IAPWS97(T=423.15, x=0).P * 1e6
+    out = inlet_properties([WATER], np.array([psat]), np.array([423.15]), np.array([""], dtype=object))
+    assert "saturation" in out["error"][0]
+    stated = inlet_properties([WATER], np.array([psat]), np.array([423.15]), np.array(["liquid"], dtype=object))
+    assert stated["error"][0] == ""
+    assert stated["rho"][0] == pytest.approx(iapws.IAPWS97(T=423.15, x=0).rho, rel=1e-3)
