@@ -1,0 +1,182 @@
+"""Command line: ``valve-audit run``, ``valve-audit rules``, ``valve-audit compare``.
+
+Exit status of ``run`` (also in the README):
+  0  every non-blank row of the line list was audited;
+  1  the run finished, but some rows were rejected (see rejected.csv);
+  2  the command line was wrong (unknown option, bad value);
+  3  the input could not be read at all (missing file, unreadable, over a size limit,
+     a bad rule or scaling file);
+  70 an internal error: a bug in valve-audit, never the line list's fault.
+"""
+from __future__ import annotations
+
+import sys
+import tomllib
+import traceback
+from pathlib import Path
+from typing import Optional
+
+import typer
+
+from . import __version__
+
+EXIT_OK, EXIT_REJECTED, EXIT_USAGE, EXIT_INPUT, EXIT_BUG = 0, 1, 2, 3, 70
+FORMATS = ("csv", "html", "pdf", "xlsx", "json")
+BUG_MESSAGE = ("valve-audit hit an internal error; this is a bug in the tool, not in your line list. "
+               "Please report it with the line list (or the rows that trigger it) and this message:")
+
+app = typer.Typer(add_completion=False, no_args_is_help=True,
+                  help="Screen a whole control-valve line list against IEC 60534 (sizing, choking, "
+                       "cavitation, flashing, velocity, noise, travel). Screening only: results must be "
+                       "confirmed by a competent engineer; local codes and licensed practice govern.")
+
+
+def _load_toml(path: Path, what: str) -> dict:
+    try:
+        return tomllib.loads(path.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise InputProblem(f"the {what} '{path}' does not exist")
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise InputProblem(f"the {what} '{path}' is not valid TOML: {exc}")
+
+
+class InputProblem(Exception):
+    pass
+
+
+@app.command()
+def run(
+    linelist: Path = typer.Argument(..., help="Line list, CSV or XLSX, columns as in the line-list contract."),
+    out: Path = typer.Option(Path("reports"), "--out", help="Folder for the outputs (created if missing)."),
+    sheet: Optional[str] = typer.Option(None, "--sheet", help="XLSX sheet to read (default: the first)."),
+    p_atm: float = typer.Option(101.325, "--p-atm", help="Site atmospheric pressure [kPa] for gauge units "
+                                                          "(barg, kPag, psig); a p_atm column overrides it per row."),
+    rules_file: Optional[Path] = typer.Option(None, "--rules", help="Site rule file (TOML) overriding "
+                                                                     "thresholds; see 'valve-audit rules'."),
+    formats: str = typer.Option("csv,html,pdf,xlsx", "--format",
+                                help="Comma-separated outputs among csv, html, pdf, xlsx, json. The CSV files "
+                                     "are always written."),
+    scale_flow: float = typer.Option(1.0, "--scale-flow", help="What-if: multiply the flow of the chosen cases."),
+    scale_cases: str = typer.Option("", "--scale-cases", help="Comma-separated cases --scale-flow applies to "
+                                                              "(default: all)."),
+    area_scale: Optional[Path] = typer.Option(None, "--area-scale", help="What-if: TOML table "
+                                                                         "{area = multiplier} on top of --scale-flow."),
+    trims: Optional[Path] = typer.Option(None, "--trims", help="CSV of available trims per body size; valves "
+                                                               "with findings are re-screened against them."),
+    backend: str = typer.Option("HEOS", "--backend", help="CoolProp backend for pure fluids: HEOS (full "
+                                                          "equation of state) or a tabular one, BICUBIC&HEOS."),
+    max_rows: int = typer.Option(100_000, "--max-rows", help="Refuse a line list with more rows."),
+    max_bytes: int = typer.Option(50_000_000, "--max-bytes", help="Refuse a line list file larger than this."),
+    max_cell: int = typer.Option(10_000, "--max-cell", help="Reject a row with a longer cell."),
+    quiet: bool = typer.Option(False, "--quiet", help="No progress or summary on the terminal (for schedulers)."),
+):
+    """Audit LINELIST and write results.csv, valves.csv, rejected.csv and the reports into --out.
+
+    Exit status: 0 every row audited; 1 some rows rejected; 2 bad command line;
+    3 input unreadable (file, size limit, rule or scaling file); 70 internal error (a bug).
+    """
+    try:
+        code = _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cases, area_scale,
+                    trims, backend, max_rows, max_bytes, max_cell, quiet)
+    except InputProblem as exc:
+        typer.echo(f"valve-audit: {exc}", err=True)
+        code = EXIT_INPUT
+    except KeyboardInterrupt:
+        raise
+    except Exception:
+        typer.echo(BUG_MESSAGE, err=True)
+        typer.echo(traceback.format_exc(limit=-3), err=True)
+        code = EXIT_BUG
+    raise typer.Exit(code)
+
+
+def _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cases, area_scale, trims, backend,
+         max_rows, max_bytes, max_cell, quiet) -> int:
+    from .engine import Options
+    from .loader import InputError, Limits
+    from .pipeline import run_files
+    from rules import ThresholdError, effective_thresholds
+
+    wanted = {f.strip().lower() for f in formats.split(",") if f.strip()}
+    unknown = wanted - set(FORMATS)
+    if unknown:
+        raise typer.BadParameter(f"unknown format(s) {', '.join(sorted(unknown))}; choose from {', '.join(FORMATS)}",
+                                 param_hint="--format")
+    if not (scale_flow > 0):
+        raise typer.BadParameter("must be a positive number", param_hint="--scale-flow")
+    if not (p_atm > 0):
+        raise typer.BadParameter("must be a positive pressure in kPa", param_hint="--p-atm")
+    thresholds = _load_toml(rules_file, "rule file") if rules_file else {}
+    try:
+        effective_thresholds(thresholds)
+    except ThresholdError as exc:
+        raise InputProblem(f"rule file '{rules_file}': {exc}")
+    areas = _load_toml(area_scale, "area scaling file") if area_scale else {}
+    bad = [k for k, v in areas.items() if isinstance(v, bool) or not isinstance(v, (int, float)) or v <= 0]
+    if bad:
+        raise InputProblem(f"area scaling file: multipliers must be positive numbers (check {', '.join(bad[:5])})")
+    options = Options(p_atm=p_atm * 1000.0, backend=backend, thresholds=thresholds, flow_scale=scale_flow,
+                      scale_cases=tuple(c.strip() for c in scale_cases.split(",") if c.strip()),
+                      area_scale={str(k): float(v) for k, v in areas.items()})
+    limits = Limits(max_bytes=max_bytes, max_rows=max_rows, max_cell_chars=max_cell)
+    try:
+        summary = run_files(linelist, out, options, limits, sheet=sheet, formats=wanted | {"csv"},
+                            rules_file=rules_file, trims_file=trims, quiet=quiet)
+    except InputError as exc:
+        raise InputProblem(str(exc))
+    return EXIT_OK if summary.rejected == 0 else EXIT_REJECTED
+
+
+@app.command("rules")
+def rules_cmd(
+    rules_file: Optional[Path] = typer.Option(None, "--rules", help="Site rule file (TOML) to apply."),
+):
+    """Print every rule, its thresholds, their source and the effective value after a site file."""
+    from rules import ThresholdError, all_rules, effective_thresholds
+
+    try:
+        effective = effective_thresholds(_load_toml(rules_file, "rule file") if rules_file else {})
+    except (ThresholdError, InputProblem) as exc:
+        typer.echo(f"valve-audit: {exc}", err=True)
+        raise typer.Exit(EXIT_INPUT)
+    for rule in all_rules():
+        typer.echo(f"[{rule.code}] {rule.title}: {rule.description}")
+        if not rule.thresholds:
+            typer.echo("    (no thresholds)")
+        for t in rule.thresholds:
+            value = effective[rule.code.lower()][t.name]
+            mark = "" if value == t.default else "   <- site file"
+            typer.echo(f"    {t.name} = {value:g} {t.unit}   (default {t.default:g}; source: {t.source}) "
+                       f"{t.meaning}{mark}")
+    typer.echo("Per-valve columns noise_limit and velocity_limit override the noise and velocity limits.")
+
+
+@app.command()
+def compare(
+    old: Path = typer.Argument(..., help="Folder of the earlier audit's outputs."),
+    new: Path = typer.Argument(..., help="Folder of the later audit's outputs."),
+    out: Path = typer.Option(Path("reports/compare"), "--out", help="Folder for the comparison."),
+):
+    """Compare two audits' CSV outputs: new and cleared findings, worse and better choke ratios."""
+    from .compare import CompareError, compare_folders
+
+    try:
+        summary = compare_folders(old, new, out)
+    except CompareError as exc:
+        typer.echo(f"valve-audit: {exc}", err=True)
+        raise typer.Exit(EXIT_INPUT)
+    typer.echo(summary)
+
+
+@app.command()
+def version():
+    """Print the tool version."""
+    typer.echo(__version__)
+
+
+def main():  # console entry point
+    app()
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,201 @@
+"""The audit pipeline: line list -> properties -> sizing -> rules -> ranking.
+
+All arrays here are SI and hold one element per valve-case.  The pipeline
+has no loop over valves or cases except where CoolProp is asked for a
+distinct state (see ``properties``).  A case that cannot be audited keeps
+its row with a ``case_error`` and blank numbers; it never stops the run.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from . import properties, sizing
+from .characteristic import travel_percent
+from .loader import LineList
+
+R_GAS = properties.R_GAS
+
+
+@dataclass
+class Options:
+    """Run options that change numbers (and so belong in the report's metadata)."""
+    p_atm: float = 101325.0          # Pa, site atmospheric pressure for gauge units
+    backend: str = "HEOS"            # CoolProp backend for pure fluids
+    thresholds: dict = field(default_factory=dict)  # rule threshold overrides {rule: {name: value}}
+    flow_scale: float = 1.0          # what-if multiplier on every case's flow
+    scale_cases: tuple[str, ...] = ()  # cases the multiplier applies to (empty: all)
+    area_scale: dict = field(default_factory=dict)  # {area: multiplier}, on top of flow_scale
+
+
+@dataclass
+class Audit:
+    cases: pd.DataFrame        # one row per valve-case, SI, every computed column
+    valves: pd.DataFrame       # one row per audited valve (line-list fields, SI)
+    rejected: pd.DataFrame
+    findings: pd.DataFrame     # one row per finding: case row, code, severity, sentence
+    linelist: LineList
+    options: Options
+
+
+def case_table(ll: LineList, options: Options) -> pd.DataFrame:
+    """Join each case with its valve's fields, as flat SI arrays."""
+    cases = ll.cases.copy()
+    v = cases["valve"].to_numpy(int)
+    vals = ll.valves
+    for col in ("tag", "area", "service", "valve_size", "rated_cv", "characteristic", "rangeability",
+                "fl", "xt", "fd", "xfz_given", "pipe_in_id", "pipe_out_id", "pipe_out_wall",
+                "noise_limit", "velocity_limit", "custom", "phase_given", "typical_factors",
+                "overridden", "sound_speed") + ("density", "vapour_pressure", "critical_pressure",
+                                                 "viscosity", "molar_mass", "k", "z"):
+        cases[col if col != "sound_speed" else "sound_speed_given"] = vals[col].to_numpy()[v]
+    scale = np.full(len(cases), 1.0)
+    applies = np.isin(cases["case"], options.scale_cases) if options.scale_cases else np.ones(len(cases), bool)
+    scale = np.where(applies, options.flow_scale, 1.0)
+    if options.area_scale:
+        area_factor = cases["area"].map(lambda a: options.area_scale.get(a, 1.0)).to_numpy(float)
+        scale = scale * np.where(applies, area_factor, 1.0)
+    cases["flow"] = cases["flow"].to_numpy(float) * scale
+    cases["flow_scale"] = scale
+    return cases
+
+
+def add_properties(cases: pd.DataFrame, ll: LineList, options: Options) -> None:
+    """Inlet properties: CoolProp, then the row's overrides, which win."""
+    n = len(cases)
+    v = cases["valve"].to_numpy(int)
+    ok = cases["case_error"].to_numpy(dtype=object) == ""
+    fluid_objs = ll.valves["fluid_obj"].to_numpy(dtype=object)[v]
+    fluids = [f if good else None for f, good in zip(fluid_objs, ok)]
+    p1, t1 = cases["p_in"].to_numpy(float), cases["t_in"].to_numpy(float)
+    phase_given = cases["phase_given"].to_numpy(dtype=object)
+    props = properties.inlet_properties(fluids, p1, t1, phase_given, options.backend)
+    custom = cases["custom"].to_numpy(bool)
+    phase = np.where(custom, phase_given, props["phase"])
+    over = {"rho": "density", "pv": "vapour_pressure", "pc": "critical_pressure", "mu": "viscosity",
+            "molar_mass": "molar_mass", "k": "k", "z": "z", "sound_speed": "sound_speed_given"}
+    out = {}
+    for name, col in over.items():
+        given = cases[col].to_numpy(float)
+        out[name] = np.where(np.isfinite(given), given, props[name])
+    gas = phase == "gas"
+    # A gas row that overrides Z or M (not density) gets its density from p M / (Z R T).
+    z_or_m = np.isfinite(cases["z"].to_numpy(float)) | np.isfinite(cases["molar_mass"].to_numpy(float))
+    recompute = gas & (custom | z_or_m) & ~np.isfinite(cases["density"].to_numpy(float))
+    ideal = properties.ideal_gas_density(p1, t1, out["molar_mass"], np.where(np.isfinite(out["z"]), out["z"], 1.0))
+    out["rho"] = np.where(recompute, ideal, out["rho"])
+    for name, arr in out.items():
+        cases[name] = arr
+    cases["h_in"] = props["h"]
+    cases["phase"] = phase
+    err = cases["case_error"].to_numpy(dtype=object).copy()
+    err = np.where((err == "") & (props["error"] != ""), props["error"], err)
+    liquid = phase == "liquid"
+    checks = [
+        (liquid & (out["pv"] >= p1), "the vapour pressure is at or above the inlet pressure, so the inlet "
+                                     "cannot be liquid; check vapour_pressure, p_in and t_in"),
+        (liquid & ~(out["pc"] > out["pv"]), "the critical pressure must be above the vapour pressure"),
+        (gas & ~np.isfinite(cases["xt"].to_numpy(float)), "the case is gas or vapour but column 'xt' is "
+                                                            "blank and no 'valve_style' gives a typical value"),
+    ]
+    for mask, message in checks:
+        err = np.where((err == "") & mask & ok, message, err)
+    cases["case_error"] = err
+
+
+def add_mass_flow(cases: pd.DataFrame) -> None:
+    """Every flow basis to mass flow [kg/s] and inlet volume flow [m3/s]."""
+    flow = cases["flow"].to_numpy(float)
+    basis = cases["flow_basis"].to_numpy(dtype=object)
+    rho = cases["rho"].to_numpy(float)
+    gas = cases["phase"].to_numpy(dtype=object) == "gas"
+    rho_std = cases["std_p"].to_numpy(float) * cases["molar_mass"].to_numpy(float) / 1000.0 / (
+        R_GAS * cases["std_t"].to_numpy(float))
+    bare = flow / 3600.0  # a bare number: m3/h for liquids, kg/h for gases (contract defaults)
+    w = np.select([basis == "mass", basis == "volume", basis == "std", gas], [flow, flow * rho, flow * rho_std, bare],
+                  bare * rho)
+    cases["w"] = w
+    cases["q_in"] = w / rho
+    err = cases["case_error"].to_numpy(dtype=object)
+    std_liquid = (basis == "std") & ~gas & (err == "")
+    cases["case_error"] = np.where(std_liquid, "a standard gas volume flow (Nm3/h, Sm3/h, scfh, MMSCFD) was given "
+                                               "for a liquid; give m3/h, l/min, gpm or a mass flow", err)
+
+
+def add_sizing(cases: pd.DataFrame) -> None:
+    """IEC 60534-2-1 sizing of every auditable case at once."""
+    ok = cases["case_error"].to_numpy(dtype=object) == ""
+    c = {k: cases[k].to_numpy(float) for k in ("w", "p_in", "p_out", "t_in", "rho", "pv", "pc", "mu", "molar_mass",
+                                                  "k", "valve_size", "pipe_in_id", "pipe_out_id", "fl", "xt", "fd")}
+    # A bore slightly under the valve size (heavy schedule, same nominal size) is no reducer.
+    for side in ("pipe_in_id", "pipe_out_id"):
+        c[side] = np.maximum(c[side], c["valve_size"])
+    gas = cases["phase"].to_numpy(dtype=object) == "gas"
+    res = {name: np.full(len(cases), np.nan) for name in ("kv", "cv", "fp", "flp", "xtp", "fr", "rev", "ff",
+                                                           "y", "x", "x_choked", "dp_choked", "choke_ratio")}
+    res["choked"] = np.zeros(len(cases), dtype=bool)
+    res["converged"] = np.zeros(len(cases), dtype=bool)
+    if ok.any():
+        sized = sizing.size_valves(gas[ok], *(c[k][ok] for k in (
+            "w", "p_in", "p_out", "t_in", "rho", "pv", "pc", "mu", "molar_mass", "k", "valve_size", "pipe_in_id",
+            "pipe_out_id", "fl", "xt", "fd")))
+        for name in res:
+            res[name][ok] = sized[name]
+    for name, arr in res.items():
+        cases[name] = arr
+    cases["cv_ratio"] = res["cv"] / cases["rated_cv"].to_numpy(float)
+    cases["travel_pct"] = travel_percent(cases["cv_ratio"].to_numpy(float), cases["characteristic"].to_numpy(),
+                                         cases["rangeability"].to_numpy(float))
+    cases["dp"] = c["p_in"] - c["p_out"]
+    cases["sizing_failed"] = ok & ~res["converged"]
+
+
+def add_outlet_state(cases: pd.DataFrame, ll: LineList, options: Options) -> None:
+    """State after the valve: isenthalpic expansion from the inlet to p_out.
+
+    CoolProp fluids: an (h, p) flash gives the outlet vapour mass fraction,
+    the outlet mixture density (homogeneous) and, single phase, the speed of
+    sound.  Custom fluids have no enthalpy data: a custom liquid keeps its
+    inlet density (its vapour fraction is unknown when it flashes), a custom
+    gas takes rho2 = rho1 p2 / p1 at the inlet temperature and Z, and
+    c2 = sqrt(k Z R T / M).
+    """
+    n = len(cases)
+    ok = (cases["case_error"].to_numpy(dtype=object) == "") & cases["converged"].to_numpy(bool)
+    custom = cases["custom"].to_numpy(bool)
+    v = cases["valve"].to_numpy(int)
+    fluid_objs = ll.valves["fluid_obj"].to_numpy(dtype=object)[v]
+    fluids = [f if good and not c else None for f, good, c in zip(fluid_objs, ok, custom)]
+    p2 = cases["p_out"].to_numpy(float)
+    flash = properties.isenthalpic_outlet(fluids, p2, cases["h_in"].to_numpy(float), options.backend)
+    gas = cases["phase"].to_numpy(dtype=object) == "gas"
+    rho1, p1, t1 = (cases[c].to_numpy(float) for c in ("rho", "p_in", "t_in"))
+    k, m, z = (cases[c].to_numpy(float) for c in ("k", "molar_mass", "z"))
+    z = np.where(np.isfinite(z), z, 1.0)
+    rho_custom = np.where(gas, rho1 * p2 / p1, rho1)
+    c_custom = np.where(gas, np.sqrt(k * z * R_GAS * t1 / (m / 1000.0)), np.nan)
+    use_flash = np.array([f is not None for f in fluids]) & (flash["error"] == "")
+    cases["rho_out"] = np.where(use_flash, flash["rho"], rho_custom)
+    cases["quality_out"] = np.where(use_flash, flash["quality"], np.where(gas, 1.0, np.nan))
+    cases["t_out"] = np.where(use_flash, flash["t"], t1)
+    cases["sound_speed_out"] = np.where(use_flash, flash["sound_speed"], c_custom)
+    cases["outlet_note"] = np.where(ok & ~use_flash & ~custom, flash["error"], "")
+    cases.loc[~ok, ["rho_out", "quality_out", "t_out", "sound_speed_out"]] = np.nan
+
+
+def compute(ll: LineList, options: Options | None = None) -> Audit:
+    """Audit a loaded line list: every case sized, screened and ranked."""
+    from rules import apply_rules  # the rules package depends on audit, not the reverse
+    from .ranking import rank_valves
+
+    options = options or Options()
+    cases = case_table(ll, options)
+    add_properties(cases, ll, options)
+    add_mass_flow(cases)
+    add_sizing(cases)
+    add_outlet_state(cases, ll, options)
+    findings = apply_rules(cases, options.thresholds)
+    valves = rank_valves(ll.valves, cases, findings)
+    return Audit(cases, valves, ll.rejected, findings, ll, options)

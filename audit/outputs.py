@@ -1,0 +1,105 @@
+"""Machine-readable outputs, per ../shared/spec/outputs.md, and safe writing.
+
+Numbers are plain floats in the unit the column name ends with; booleans
+are true/false.  Text cells that a spreadsheet would take for a formula
+(starting with =, +, - or @ followed by a letter or quote) get a leading
+apostrophe.  Files are written into a temporary folder beside the target
+and moved into place only when all are complete.
+"""
+from __future__ import annotations
+
+import os
+import re
+import shutil
+import tempfile
+from contextlib import contextmanager
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+RESULTS_COLUMNS = ["tag", "case", "phase", "cv_required", "cv_ratio", "travel_pct", "travel_observed_pct",
+                   "dp_kpa", "dp_choked_kpa", "x", "x_choked", "choke_ratio", "choked", "sigma", "xf", "xfz",
+                   "cavitation", "flashing", "vapour_fraction_out", "velocity_out_m_s", "mach_out", "noise_dba",
+                   "findings"]
+EXTRA_RESULTS = ["area", "flow_kg_h", "p_in_kpa", "p_out_kpa", "t_in_c", "kv_required", "fp", "flp", "xtp",
+                 "fr", "rev", "ff", "y", "xfz_source", "noise_note", "case_note"]
+VALVES_COLUMNS = ["rank", "tag", "area", "service", "worst_case", "choke_ratio_max", "severity", "findings"]
+REJECTED_COLUMNS = ["row", "tag", "reason"]
+
+# = and @ always start a formula; + and - do when a letter, quote or bracket follows
+# (a plain negative number stays a number).  A leading tab or CR is stripped by some importers.
+_FORMULA = re.compile(r"^[=@]|^[+\-]\s*[A-Za-z\"'(@=]|^[\t\r]")
+
+
+def neutralise(value):
+    """Prefix an apostrophe to text a spreadsheet would evaluate as a formula."""
+    if isinstance(value, str) and _FORMULA.match(value):
+        return "'" + value
+    return value
+
+
+def results_table(cases: pd.DataFrame) -> pd.DataFrame:
+    """results.csv: one row per valve and case, in the contract's units."""
+    def num(name, scale=1.0, offset=0.0):
+        return cases[name].to_numpy(float) * scale + offset if name in cases else np.full(len(cases), np.nan)
+    note = np.where(cases["case_error"] != "", cases["case_error"], cases.get("outlet_note", ""))
+    out = pd.DataFrame({
+        "tag": cases["tag"], "case": cases["case"], "phase": cases["phase"],
+        "cv_required": num("cv"), "cv_ratio": num("cv_ratio"), "travel_pct": num("travel_pct"),
+        "travel_observed_pct": num("travel_observed_pct"), "dp_kpa": num("dp", 1e-3),
+        "dp_choked_kpa": num("dp_choked", 1e-3), "x": num("x"), "x_choked": num("x_choked"),
+        "choke_ratio": num("choke_ratio"), "choked": cases["choked"].astype(bool),
+        "sigma": num("sigma"), "xf": num("xf"), "xfz": num("xfz"), "cavitation": cases.get("cavitation", ""),
+        "flashing": cases.get("flashing", False), "vapour_fraction_out": num("vapour_fraction_out"),
+        "velocity_out_m_s": num("velocity_out_m_s"), "mach_out": num("mach_out"), "noise_dba": num("noise_dba"),
+        "findings": cases["findings"],
+        "area": cases["area"], "flow_kg_h": num("w", 3600.0), "p_in_kpa": num("p_in", 1e-3),
+        "p_out_kpa": num("p_out", 1e-3), "t_in_c": num("t_in", 1.0, -273.15), "kv_required": num("kv"),
+        "fp": num("fp"), "flp": num("flp"), "xtp": num("xtp"), "fr": num("fr"), "rev": num("rev"),
+        "ff": num("ff"), "y": num("y"), "xfz_source": cases.get("xfz_source", ""),
+        "noise_note": cases.get("noise_note", ""), "case_note": note,
+    })
+    return out[RESULTS_COLUMNS + EXTRA_RESULTS]
+
+
+def to_csv_text(frame: pd.DataFrame) -> str:
+    """CSV text with formula-like cells neutralised, booleans as true/false, floats in full."""
+    safe = frame.copy()
+    for c in safe.columns:
+        if safe[c].dtype == bool:
+            safe[c] = np.where(safe[c], "true", "false")
+        elif safe[c].dtype == object:
+            safe[c] = safe[c].map(lambda v: neutralise(v) if isinstance(v, str) else
+                                  ("true" if v is True else "false" if v is False else v))
+    return safe.to_csv(index=False, lineterminator="\n", float_format="%.6g")
+
+
+@contextmanager
+def staged_folder(target: Path):
+    """Yield a temporary folder; on success its files replace those in ``target``.
+
+    A run killed before the end leaves ``target`` as it was.  The move is
+    one rename per file, each atomic on the same file system.
+    """
+    target = Path(target)
+    target.mkdir(parents=True, exist_ok=True)
+    stage = Path(tempfile.mkdtemp(prefix=".valve-audit-", dir=target))
+    try:
+        yield stage
+        for item in sorted(stage.iterdir()):
+            os.replace(item, target / item.name)
+    finally:
+        shutil.rmtree(stage, ignore_errors=True)
+
+
+def write_csvs(folder: Path, audit) -> None:
+    (folder / "results.csv").write_text(to_csv_text(results_table(audit.cases)), encoding="utf-8")
+    (folder / "valves.csv").write_text(to_csv_text(audit.valves[VALVES_COLUMNS + _extra_valve_columns(audit)]),
+                                       encoding="utf-8")
+    rejected = audit.rejected[REJECTED_COLUMNS] if len(audit.rejected) else pd.DataFrame(columns=REJECTED_COLUMNS)
+    (folder / "rejected.csv").write_text(to_csv_text(rejected), encoding="utf-8")
+
+
+def _extra_valve_columns(audit) -> list[str]:
+    return [c for c in ("finding_codes",) + tuple(getattr(audit, "valve_extra_columns", ())) if c in audit.valves]

@@ -1,0 +1,75 @@
+"""Screening rules.  Each module here defines ``RULE``; the engine finds them itself.
+
+See ``rules.base`` for the interface and DEVELOPERS.md for how to add one.
+"""
+from __future__ import annotations
+
+import importlib
+import pkgutil
+from functools import lru_cache
+
+import numpy as np
+import pandas as pd
+
+from .base import Rule, Severity, combine
+
+_NOT_RULES = {"base"}
+
+
+@lru_cache(maxsize=1)
+def all_rules() -> tuple[Rule, ...]:
+    """Every rule module of this package, in evaluation order."""
+    found = []
+    for info in pkgutil.iter_modules(__path__):
+        if info.name in _NOT_RULES or info.name.startswith("_"):
+            continue
+        module = importlib.import_module(f"{__name__}.{info.name}")
+        rule = getattr(module, "RULE", None)
+        if isinstance(rule, Rule):
+            found.append(rule)
+    return tuple(sorted(found, key=lambda r: (r.order, r.code)))
+
+
+class ThresholdError(ValueError):
+    """A site rule file names a rule or threshold that does not exist, or a bad value."""
+
+
+def effective_thresholds(overrides: dict | None) -> dict[str, dict[str, float]]:
+    """Defaults of every rule with a site's overrides applied; unknown names are errors."""
+    overrides = overrides or {}
+    rules = {r.code.lower(): r for r in all_rules()}
+    out = {code: r.defaults() for code, r in rules.items()}
+    for code, values in overrides.items():
+        key = str(code).lower()
+        if key not in rules:
+            raise ThresholdError(f"rule '{code}' does not exist; rules are {', '.join(sorted(rules))}")
+        if not isinstance(values, dict):
+            raise ThresholdError(f"rule '{code}': expected a table of thresholds")
+        for name, value in values.items():
+            if name not in out[key]:
+                raise ThresholdError(f"rule '{code}' has no threshold '{name}'; it has {', '.join(out[key])}")
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value):
+                raise ThresholdError(f"rule '{code}', threshold '{name}': {value!r} is not a number")
+            out[key][name] = float(value)
+    return out
+
+
+def apply_rules(cases: pd.DataFrame, overrides: dict | None = None) -> pd.DataFrame:
+    """Run every rule in order; add their columns to ``cases``; return all findings."""
+    thresholds = effective_thresholds(overrides)
+    found = []
+    for rule in all_rules():
+        result = rule.evaluate(cases, thresholds[rule.code.lower()])
+        for name, values in result.columns.items():
+            cases[name] = values
+        found.append(result.findings)
+    allf = combine(*found)
+    codes = allf.sort_values(["case_row", "severity"], ascending=[True, False], kind="stable") \
+        .groupby("case_row")["code"].apply(lambda c: ";".join(dict.fromkeys(c)))
+    cases["findings"] = ""
+    if len(codes):
+        cases.loc[codes.index, "findings"] = codes.to_numpy()
+    return allf
+
+
+__all__ = ["Rule", "Severity", "all_rules", "apply_rules", "effective_thresholds", "ThresholdError"]

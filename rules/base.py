@@ -1,0 +1,100 @@
+"""The one interface every screening rule shares.
+
+A rule is a module in this package that defines ``RULE = Rule(...)``.  Its
+``evaluate(cases, thresholds)`` receives the table of sized valve-cases (SI
+columns, one row per case) and a dict of its effective thresholds, and
+returns a ``RuleResult``: the columns it computes (added to the case table,
+so later rules may read them) and its findings, one row each with the case
+row, a code, a severity and one plain sentence with the numbers in it.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from enum import IntEnum
+from typing import Callable
+
+import numpy as np
+import pandas as pd
+
+
+class Severity(IntEnum):
+    """How soon a finding needs someone's attention, in our own words."""
+    CLEAR = 0   # nothing found
+    NOTE = 1    # worth knowing: data or assumptions
+    WATCH = 2   # near a limit: check at the next opportunity
+    PLAN = 3    # past a limit: plan a fix for the next window
+    URGENT = 4  # the valve cannot do its job, or people may be exposed
+
+    @property
+    def label(self) -> str:
+        return {0: "clear", 1: "note", 2: "watch", 3: "plan", 4: "urgent"}[int(self)]
+
+
+@dataclass(frozen=True)
+class Threshold:
+    """A documented default that a site file can override."""
+    name: str
+    default: float
+    unit: str
+    source: str      # "IEC 60534-...", or "common practice"
+    meaning: str
+
+
+@dataclass
+class RuleResult:
+    columns: dict[str, np.ndarray] = field(default_factory=dict)
+    findings: pd.DataFrame = field(default_factory=lambda: empty_findings())
+
+
+@dataclass(frozen=True)
+class Rule:
+    code: str
+    title: str
+    order: int
+    thresholds: tuple[Threshold, ...]
+    evaluate: Callable[[pd.DataFrame, dict], RuleResult]
+    description: str = ""
+
+    def defaults(self) -> dict[str, float]:
+        return {t.name: t.default for t in self.thresholds}
+
+
+FINDING_COLUMNS = ["case_row", "code", "severity", "sentence"]
+
+
+def empty_findings() -> pd.DataFrame:
+    return pd.DataFrame({"case_row": pd.Series(dtype=int), "code": pd.Series(dtype=object),
+                         "severity": pd.Series(dtype=int), "sentence": pd.Series(dtype=object)})
+
+
+def findings(mask: np.ndarray, code: str, severity: Severity, sentence: Callable[[int], str]) -> pd.DataFrame:
+    """Findings for the case rows where ``mask`` holds; ``sentence(i)`` writes row i's sentence."""
+    rows = np.flatnonzero(mask)
+    if rows.size == 0:
+        return empty_findings()
+    return pd.DataFrame({"case_row": rows, "code": code, "severity": int(severity),
+                         "sentence": [sentence(i) for i in rows]})
+
+
+def combine(*frames: pd.DataFrame) -> pd.DataFrame:
+    frames = [f for f in frames if len(f)]
+    return pd.concat(frames, ignore_index=True) if frames else empty_findings()
+
+
+def col(cases: pd.DataFrame, name: str) -> np.ndarray:
+    """A case column as a float array."""
+    return cases[name].to_numpy(float)
+
+
+def text(cases: pd.DataFrame, name: str) -> np.ndarray:
+    return cases[name].to_numpy(dtype=object)
+
+
+def valid(cases: pd.DataFrame) -> np.ndarray:
+    """Cases that were sized: no case error, converged."""
+    return (text(cases, "case_error") == "") & cases["converged"].to_numpy(bool)
+
+
+def bar(p_pa: float) -> str:
+    """A pressure for a sentence: bar(a), 3 significant figures."""
+    return f"{p_pa / 1e5:.3g} bar(a)"

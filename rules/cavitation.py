@@ -1,0 +1,87 @@
+"""Cavitation of liquids, IEC 60534-8-4 (xFz) with the choked limit of IEC 60534-2-1.
+
+xF = dp / (p1 - pv) is compared with the incipient cavitation ratio xFz
+corrected to the inlet pressure, xFzp1 = xFz (6 bar / p1)^0.125 (IEC
+60534-8-4, clause on the characteristic pressure ratio), and with the
+choked ratio (FLP / FP)^2.  Where the line list gives no xFz it is
+estimated per IEC 60534-8-4 from Fd, FL and the case's required Kv:
+xFz = 0.90 / sqrt(1 + 3 Fd sqrt(Kv / (N34 FL))), N34 = 1.17 (Kv).
+
+Levels: none (xF < xFzp1), incipient, developed (from our screening split
+of the cavitating range, a threshold below), choked (xF >= (FLP/FP)^2),
+flashing (p2 <= pv).
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from .base import Rule, RuleResult, Severity, Threshold, col, combine, findings, text, valid
+
+N34 = 1.17
+P_REFERENCE = 6.0e5  # Pa, reference inlet pressure of xFz
+
+
+def estimate_xfz(kv, fd, fl):
+    """Incipient cavitation ratio xFz from trim data, IEC 60534-8-4 (estimate for lack of test data).
+
+    kv: flow coefficient Kv [m3/h] (the case's required one); fd: valve
+    style modifier; fl: liquid pressure recovery factor.  Dimensionless.
+    """
+    return 0.90 / np.sqrt(1.0 + 3.0 * fd * np.sqrt(kv / (N34 * fl)))
+
+
+def xfz_at_inlet(xfz, p1):
+    """xFz corrected for inlet pressure p1 [Pa]: xFzp1 = xFz (6e5 / p1)^0.125, IEC 60534-8-4."""
+    return xfz * (P_REFERENCE / p1) ** 0.125
+
+
+def levels(xf, xfzp1, x_choke, flashing, developed_share):
+    """Cavitation level per case from xF and its boundaries."""
+    developed_from = xfzp1 + developed_share * (x_choke - xfzp1)
+    return np.select(
+        [flashing, xf >= x_choke, xf >= developed_from, xf >= xfzp1],
+        ["flashing", "choked", "developed", "incipient"], "none")
+
+
+def evaluate(cases, th) -> RuleResult:
+    ok = valid(cases)
+    liquid = ok & (text(cases, "phase") == "liquid")
+    p1, p2, pv = col(cases, "p_in"), col(cases, "p_out"), col(cases, "pv")
+    dp = p1 - p2
+    with np.errstate(divide="ignore", invalid="ignore"):
+        xf = np.where(liquid, dp / (p1 - pv), np.nan)
+        sigma = np.where(liquid, (p1 - pv) / dp, np.nan)
+    given = col(cases, "xfz_given")
+    estimated = estimate_xfz(col(cases, "kv"), col(cases, "fd"), col(cases, "fl"))
+    xfz = np.where(liquid, np.where(np.isfinite(given), given, estimated), np.nan)
+    source = np.where(liquid, np.where(np.isfinite(given), "given", "estimated"), "")
+    xfzp1 = xfz_at_inlet(xfz, p1)
+    x_choke = (col(cases, "flp") / col(cases, "fp")) ** 2
+    flashing = cases["flashing"].to_numpy(bool)
+    level = np.where(liquid, levels(xf, xfzp1, x_choke, flashing, th["developed_share"]), "")
+    name = text(cases, "case")
+
+    def sentence(i, what):
+        return (f"Cavitation {what} at case {name[i]}: xF {xf[i]:.3f} against xFz {xfzp1[i]:.3f} "
+                f"({source[i]}, at inlet pressure) and a choked limit of {x_choke[i]:.3f}; sigma {sigma[i]:.2f}.")
+
+    return RuleResult(
+        columns={"xf": xf, "sigma": sigma, "xfz": xfz, "xfzp1": xfzp1, "xfz_source": source,
+                 "cavitation": level},
+        findings=combine(
+            findings(level == "incipient", "CAV_INCIPIENT", Severity.WATCH, lambda i: sentence(i, "incipient")),
+            findings(level == "developed", "CAV_DEVELOPED", Severity.PLAN,
+                     lambda i: sentence(i, "developed") + " Expect trim damage and noise."),
+            findings(level == "choked", "CAV_CHOKED", Severity.PLAN,
+                     lambda i: sentence(i, "choked") + " Expect heavy damage downstream of the seat."),
+        ))
+
+
+RULE = Rule(
+    code="cavitation", title="Cavitation", order=20, evaluate=evaluate,
+    thresholds=(
+        Threshold("developed_share", 0.5, "share of the span xFzp1..(FLP/FP)^2", "common practice",
+                  "where in the cavitating range cavitation counts as developed rather than incipient"),
+    ),
+    description="xF against xFz (given or estimated, IEC 60534-8-4) and (FLP/FP)^2",
+)
