@@ -155,33 +155,38 @@ def add_sizing(cases: pd.DataFrame) -> None:
 def add_outlet_state(cases: pd.DataFrame, ll: LineList, options: Options) -> None:
     """State after the valve: isenthalpic expansion from the inlet to p_out.
 
-    CoolProp fluids: an (h, p) flash gives the outlet vapour mass fraction,
-    the outlet mixture density (homogeneous) and, single phase, the speed of
-    sound.  Custom fluids have no enthalpy data: a custom liquid keeps its
-    inlet density (its vapour fraction is unknown when it flashes), a custom
-    gas takes rho2 = rho1 p2 / p1 at the inlet temperature and Z, and
+    Gases and flashing liquids of CoolProp fluids: an (h, p) flash gives the
+    outlet vapour mass fraction, the outlet mixture density (homogeneous) and,
+    single phase, the speed of sound.  A liquid that does not flash keeps its
+    inlet density.  Custom fluids have no enthalpy data: a flashing custom
+    liquid's vapour fraction is unknown (NaN, and the finding says so), a
+    custom gas takes rho2 = rho1 p2 / p1 at the inlet temperature and Z, and
     c2 = sqrt(k Z R T / M).
     """
-    n = len(cases)
     ok = (cases["case_error"].to_numpy(dtype=object) == "") & cases["converged"].to_numpy(bool)
     custom = cases["custom"].to_numpy(bool)
     v = cases["valve"].to_numpy(int)
     fluid_objs = ll.valves["fluid_obj"].to_numpy(dtype=object)[v]
-    fluids = [f if good and not c else None for f, good, c in zip(fluid_objs, ok, custom)]
     p2 = cases["p_out"].to_numpy(float)
-    flash = properties.isenthalpic_outlet(fluids, p2, cases["h_in"].to_numpy(float), options.backend)
     gas = cases["phase"].to_numpy(dtype=object) == "gas"
+    flashing = ~gas & (p2 <= cases["pv"].to_numpy(float))
+    # A liquid that does not flash leaves as the same liquid (rho_out = rho_in); only flashing
+    # liquids and gases need the (h, p) flash, which for mixtures costs a tenth of a second.
+    need = ok & ~custom & (gas | flashing)
+    fluids = [f if want else None for f, want in zip(fluid_objs, need)]
+    flash = properties.isenthalpic_outlet(fluids, p2, cases["h_in"].to_numpy(float), options.backend,
+                                          t_in=cases["t_in"].to_numpy(float), gas=gas)
     rho1, p1, t1 = (cases[c].to_numpy(float) for c in ("rho", "p_in", "t_in"))
     k, m, z = (cases[c].to_numpy(float) for c in ("k", "molar_mass", "z"))
     z = np.where(np.isfinite(z), z, 1.0)
-    rho_custom = np.where(gas, rho1 * p2 / p1, rho1)
+    rho_custom = np.where(gas, rho1 * p2 / p1, rho1)  # also every liquid that does not flash
     c_custom = np.where(gas, np.sqrt(k * z * R_GAS * t1 / (m / 1000.0)), np.nan)
-    use_flash = np.array([f is not None for f in fluids]) & (flash["error"] == "")
+    use_flash = need & (flash["error"] == "")
     cases["rho_out"] = np.where(use_flash, flash["rho"], rho_custom)
-    cases["quality_out"] = np.where(use_flash, flash["quality"], np.where(gas, 1.0, np.nan))
+    cases["quality_out"] = np.where(use_flash, flash["quality"], np.where(gas, 1.0, np.where(flashing, np.nan, 0.0)))
     cases["t_out"] = np.where(use_flash, flash["t"], t1)
     cases["sound_speed_out"] = np.where(use_flash, flash["sound_speed"], c_custom)
-    cases["outlet_note"] = np.where(ok & ~use_flash & ~custom, flash["error"], "")
+    cases["outlet_note"] = np.where(need & ~use_flash, flash["error"], "")
     cases.loc[~ok, ["rho_out", "quality_out", "t_out", "sound_speed_out"]] = np.nan
 
 

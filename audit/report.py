@@ -1,0 +1,281 @@
+"""Human-readable outputs: report.html (self-contained), report.pdf, and the XLSX work list.
+
+All text that comes from the line list goes through Jinja's autoescaping;
+plots are inline SVG generated here.  The PDF renderer gets a URL fetcher
+that refuses every URL (local files included), so nothing in a line list
+can make it read the disk or the network.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+from jinja2 import Environment, PackageLoader, select_autoescape
+
+from rules import all_rules, effective_thresholds
+from rules.base import Severity
+
+from .outputs import neutralise
+
+SEVERITY_MEANING = {
+    Severity.URGENT: "the valve cannot do its job, or people may be exposed: look now",
+    Severity.PLAN: "past a limit: plan a fix for the next maintenance window",
+    Severity.WATCH: "near a limit or doubtful data: check at the next opportunity",
+    Severity.NOTE: "worth knowing: assumptions behind the numbers",
+    Severity.CLEAR: "nothing found",
+}
+SEVERITY_MARK = {4: "!!!!", 3: "!!!", 2: "!!", 1: "!", 0: "-"}
+PLOT_FROM = Severity.WATCH  # valves with a finding of this severity or worse get plots
+
+METHODS = [
+    "Flow coefficients: IEC 60534-2-1:2011, clauses 6 to 9 and annex A: incompressible and compressible flow, "
+    "choked and not, piping geometry factors FP, FLP and xTP for concentric reducers, Reynolds number factor FR "
+    "(full-size and reduced trims); the coefficient C is solved for every case to 0.1 %.",
+    "Liquid choked limit: dp_choked = (FLP/FP)^2 (p1 - FF pv), FF = 0.96 - 0.28 sqrt(pv/pc). Gas choked limit: "
+    "x_choked = F_gamma xTP, F_gamma = k/1.40.",
+    "Cavitation: xF = dp/(p1 - pv) against xFz (IEC 60534-8-4; estimated from Fd, FL and the case's Kv where the line "
+    "list gives none) corrected to the inlet pressure, and against (FLP/FP)^2.",
+    "Flashing: outlet pressure at or below the vapour pressure; outlet vapour fraction and mixture density from an "
+    "isenthalpic expansion (CoolProp). Outlet velocity: mass flow over outlet density and the valve's nominal bore.",
+    "Travel: from the inherent characteristic (linear, equal percentage with the rangeability, quick opening as "
+    "square root), which departs from the installed characteristic.",
+    "Fluid properties: CoolProp (Helmholtz equations of state; mixtures by its mixture model; mixture critical "
+    "pressure by Kay's rule). Line-list overrides win over CoolProp. Standard gas volumes as ideal gas at their "
+    "reference state.",
+]
+NOT_COVERED = [
+    "Noise prediction (IEC 60534-8-3 and 8-4) is not yet part of this version: noise_dba is blank and no noise "
+    "finding is made. A valve that is choked, cavitating or fast at its outlet is likely to be loud.",
+    "Two-phase inlets, slurries, non-Newtonian fluids; actuator sizing, stroking speed, shut-off and leakage; body "
+    "and trim material, pressure rating; installed (rather than inherent) characteristic; control loop behaviour.",
+    "The valve manufacturer's own factors at partial travel (FL, xT and Fd change with opening; rated values are used).",
+]
+
+
+def _fmt(x, digits=3) -> str:
+    try:
+        x = float(x)
+    except (TypeError, ValueError):
+        return str(x)
+    if not np.isfinite(x):
+        return ""
+    return f"{x:.{digits}g}"
+
+
+def _env() -> Environment:
+    return Environment(loader=PackageLoader("audit", "templates"), autoescape=select_autoescape(["html"]),
+                       trim_blocks=True, lstrip_blocks=True)
+
+
+CASE_ROWS = [  # label, column, scale, offset, digits
+    ("phase", "phase", None, 0, 0), ("flow [kg/h]", "w", 3600.0, 0, 4), ("p in [bar(a)]", "p_in", 1e-5, 0, 4),
+    ("p out [bar(a)]", "p_out", 1e-5, 0, 4), ("t in [degC]", "t_in", 1.0, -273.15, 4),
+    ("Cv required", "cv", 1.0, 0, 4), ("Cv ratio", "cv_ratio", 1.0, 0, 3), ("travel, predicted [%]", "travel_pct", 1.0, 0, 3),
+    ("travel, observed [%]", "travel_observed_pct", 1.0, 0, 3), ("dp [kPa]", "dp", 1e-3, 0, 4),
+    ("dp choked [kPa]", "dp_choked", 1e-3, 0, 4), ("x", "x", 1.0, 0, 3), ("x choked", "x_choked", 1.0, 0, 3),
+    ("choke ratio", "choke_ratio", 1.0, 0, 3), ("sigma", "sigma", 1.0, 0, 3), ("xF", "xf", 1.0, 0, 3),
+    ("xFz at p1", "xfzp1", 1.0, 0, 3), ("cavitation", "cavitation", None, 0, 0), ("vapour fraction out", "vapour_fraction_out", 1.0, 0, 3),
+    ("outlet velocity [m/s]", "velocity_out_m_s", 1.0, 0, 3), ("outlet Mach", "mach_out", 1.0, 0, 2),
+    ("FP", "fp", 1.0, 0, 3), ("FLP", "flp", 1.0, 0, 3), ("FR", "fr", 1.0, 0, 3), ("note", "case_error", None, 0, 0),
+]
+
+
+def _case_table(cases: pd.DataFrame) -> list[dict]:
+    rows = []
+    for label, col, scale, offset, digits in CASE_ROWS:
+        if col not in cases:
+            continue
+        values = cases[col].to_numpy()
+        if scale is None:
+            cells = [str(v) if v is not None else "" for v in values]
+        else:
+            cells = [_fmt(float(v) * scale + offset, digits) if v is not None else "" for v in values]
+        if any(c not in ("", "nan") for c in cells):
+            rows.append({"label": label, "cells": ["" if c == "nan" else c for c in cells]})
+    return rows
+
+
+def build_context(audit, meta: dict, plots: bool = True, progress=None) -> dict:
+    from .plots import ValvePlots, fleet_svg
+
+    valves, cases, findings = audit.valves, audit.cases, audit.findings
+    sev_levels = valves["severity_level"].to_numpy(int)
+    severities = [{"label": s.label, "mark": SEVERITY_MARK[int(s)], "meaning": SEVERITY_MEANING[s],
+                   "count": int((sev_levels == int(s)).sum())} for s in sorted(Severity, reverse=True)]
+    areas = []
+    for name, group in valves.groupby(valves["area"].replace("", "(no area)"), sort=True):
+        lv = group["severity_level"].to_numpy(int)
+        areas.append({"name": name, "counts": [int((lv == int(s)).sum()) for s in sorted(Severity, reverse=True)],
+                      "total": len(group)})
+    rows = [{"rank": int(v.rank), "tag": v.tag, "area": v.area, "service": v.service, "worst_case": v.worst_case,
+             "ratio": _fmt(v.choke_ratio_max), "severity": v.severity, "mark": SEVERITY_MARK[int(v.severity_level)],
+             "codes": v.finding_codes.replace(";", ", ")} for v in valves.itertuples()]
+    details = _details(audit, plots, progress, ValvePlots)
+    thresholds = effective_thresholds(audit.options.thresholds)
+    trows = [{"rule": r.code, "name": t.name, "value": _fmt(thresholds[r.code.lower()][t.name], 4), "unit": t.unit,
+              "default": _fmt(t.default, 4), "source": t.source, "meaning": t.meaning}
+             for r in all_rules() for t in r.thresholds]
+    ll = audit.linelist.valves
+    typical = [{"tag": t, "style": s, "which": w} for t, s, w in zip(ll["tag"], ll["valve_style"], ll["typical_factors"])
+               if w]
+    methods = METHODS + [f"Atmospheric pressure for gauge units: {meta['p_atm_kpa']:g} kPa unless a row's p_atm says "
+                         f"otherwise. Property backend for pure fluids: {meta['property_backend']}."]
+    scaled = ""
+    if meta.get("flow_scale", 1.0) != 1.0 or meta.get("area_scale"):
+        scaled = (f"flows of cases {meta['scale_cases']} multiplied by {meta['flow_scale']:g}"
+                  + (f"; per area: {meta['area_scale']}" if meta.get("area_scale") else ""))
+    meta_rows = [("input file", meta["input_file"]), ("input SHA-256", meta["input_sha256"]), ("date", meta["date"]),
+                 ("tool version", meta["tool_version"]), ("output format version", meta["output_format_version"]),
+                 ("rule-set file", meta["rules_file"]), ("rule-set SHA-256", meta.get("rules_file_sha256", "")),
+                 ("trim alternatives file", meta.get("trims_file", "")),
+                 ("flow scaling", scaled or "none"), ("atmospheric pressure [kPa]", _fmt(meta["p_atm_kpa"], 6)),
+                 ("property backend", meta["property_backend"])]
+    return {
+        "meta": meta, "css": (Path(__file__).parent / "templates" / "report.css").read_text(encoding="utf-8"),
+        "counts": {"rows": audit.linelist.rows_total, "audited": len(valves), "rejected": len(audit.rejected),
+                   "cases": len(cases)},
+        "severities": severities, "areas": areas, "top": rows[:10], "valves": rows, "details": details,
+        "fleet_svg": fleet_svg(valves["choke_ratio_max"].to_numpy(float), list(valves["tag"])) if len(valves) else "",
+        "rejected": audit.rejected.to_dict(orient="records"),
+        "ignored": ", ".join(audit.linelist.ignored_columns), "methods": methods, "thresholds": trows,
+        "typical": typical, "not_covered": NOT_COVERED, "scaled": scaled, "meta_rows": meta_rows,
+    }
+
+
+def _details(audit, plots: bool, progress, ValvePlots) -> list[dict]:
+    valves, cases, findings = audit.valves, audit.cases, audit.findings
+    ll = audit.linelist.valves
+    if not len(findings):
+        return []
+    f = findings.assign(valve=cases["valve"].to_numpy()[findings["case_row"].to_numpy(int)])
+    by_valve = {k: g for k, g in f.groupby("valve")}
+    case_groups = {k: g for k, g in cases.groupby("valve")}
+    drawer = ValvePlots() if plots else None
+    out = []
+    items = [v for v in valves.itertuples() if int(v.valve) in by_valve]
+    if progress is not None:
+        items = progress.track(items, "Drawing valve pages")
+    try:
+        for v in items:
+            vid = int(v.valve)
+            fv = by_valve[vid].sort_values(["severity"], ascending=False, kind="stable")
+            vc = case_groups[vid]
+            lv = ll.iloc[vid]
+            svg = ""
+            sized = vc[np.isfinite(vc["cv"].to_numpy(float))]
+            if drawer is not None and v.severity_level >= PLOT_FROM and len(sized):
+                worst = sized.loc[sized["choke_ratio"].idxmax()]
+                svg = drawer.svg(vc, worst)
+            out.append({
+                "rank": int(v.rank), "tag": v.tag, "service": v.service, "area": v.area, "severity": v.severity,
+                "mark": SEVERITY_MARK[int(v.severity_level)], "worst_case": v.worst_case,
+                "fluid": lv["fluid"], "size": f"{lv['valve_size'] * 1000:.0f} mm", "rated_cv": _fmt(lv["rated_cv"], 4),
+                "characteristic": lv["characteristic"].replace("_", " "), "fl": _fmt(lv["fl"]), "xt": _fmt(lv["xt"]),
+                "fd": _fmt(lv["fd"]), "typical": lv["typical_factors"],
+                "findings": [{"severity": Severity(int(s)).label, "sentence": t}
+                             for s, t in zip(fv["severity"], fv["sentence"])],
+                "case_names": list(vc["case"]), "table": _case_table(vc), "svg": svg,
+            })
+    finally:
+        if drawer is not None:
+            drawer.close()
+    return out
+
+
+def render_html(context: dict) -> str:
+    return _env().get_template("report.html").render(**context)
+
+
+class RefusedFetch(Exception):
+    pass
+
+
+class RefuseEveryUrl:
+    """URL fetcher for the PDF renderer: nothing is fetched, from anywhere, local files included.
+
+    A refusal is a plain error to the renderer (it drops the resource and goes on), not a
+    fatal one, so a stray reference can never stop the run.
+    """
+    _fail_on_errors = False  # read by the renderer when a fetch fails
+    asked: list
+
+    def __init__(self):
+        self.asked = []
+
+    def __call__(self, url: str, *args, **kwargs):
+        self.asked.append(url)
+        raise RefusedFetch(f"the report renderer fetches nothing (asked for {url[:80]!r})")
+
+
+refuse_every_url = RefuseEveryUrl()
+
+
+def render_pdf(html: str, path: Path) -> None:
+    import logging
+
+    from weasyprint import HTML
+    logging.getLogger("weasyprint").setLevel(logging.ERROR)
+    HTML(string=html, base_url=None, url_fetcher=RefuseEveryUrl()).write_pdf(str(path))
+
+
+WORKLIST_COLUMNS = ["rank", "tag", "area", "service", "severity", "worst_case", "choke_ratio_max", "travel_max_pct",
+                    "cv_required_max", "rated_cv", "finding_codes", "findings"]
+
+
+def worklist_table(audit) -> pd.DataFrame:
+    """One row per valve with findings, ranked, with what a planner sorts and filters on."""
+    cases, valves = audit.cases, audit.valves
+    per = cases.groupby("valve").agg(travel_max_pct=("travel_pct", "max"), cv_required_max=("cv", "max"))
+    out = valves.join(per, on="valve")
+    out["rated_cv"] = audit.linelist.valves["rated_cv"].to_numpy()[out["valve"].to_numpy(int)]
+    out = out[out["finding_codes"] != ""]
+    return out[WORKLIST_COLUMNS]
+
+
+def write_worklist(path: Path, audit) -> None:
+    from openpyxl import Workbook
+    from openpyxl.styles import Alignment, Font
+
+    table = worklist_table(audit)
+    book = Workbook()
+    sheet = book.active
+    sheet.title = "work list"
+    sheet.append(WORKLIST_COLUMNS)
+    for cell in sheet[1]:
+        cell.font = Font(bold=True)
+    for row in table.itertuples(index=False):
+        values = []
+        for v in row:
+            if isinstance(v, float) and not np.isfinite(v):
+                v = None
+            values.append(neutralise(v) if isinstance(v, str) else v)
+        sheet.append(values)
+    for r in sheet.iter_rows(min_row=2):
+        for cell in r:
+            if isinstance(cell.value, str):
+                cell.data_type = "s"  # text stays text, never a formula
+        r[-1].alignment = Alignment(wrap_text=True, vertical="top")
+    widths = [6, 14, 20, 34, 9, 10, 12, 12, 13, 10, 28, 90]
+    for i, w in enumerate(widths):
+        sheet.column_dimensions[chr(ord("A") + i)].width = w
+    sheet.freeze_panes = "C2"
+    sheet.auto_filter.ref = f"A1:{chr(ord('A') + len(WORKLIST_COLUMNS) - 1)}{max(len(table) + 1, 1)}"
+    note = book.create_sheet("caution")
+    note.append(["Screening only: every finding must be confirmed by a competent engineer before action. "
+                 "Local codes, regulations and licensed practice govern."])
+    book.save(path)
+
+
+def write_reports(folder: Path, audit, meta: dict, formats: set[str], progress=None) -> None:
+    """Write the chosen human-readable outputs into ``folder``."""
+    if formats & {"html", "pdf"}:
+        html = render_html(build_context(audit, meta, plots=True, progress=progress))
+        if "html" in formats:
+            (folder / "report.html").write_text(html, encoding="utf-8")
+        if "pdf" in formats:
+            if progress is not None:
+                progress.say("Writing the PDF report")
+            render_pdf(html, folder / "report.pdf")
+    if "xlsx" in formats:
+        write_worklist(folder / "worklist.xlsx", audit)

@@ -1,0 +1,112 @@
+"""The human-readable report: order, self-containment, escaping, caution and methods."""
+import csv
+import re
+
+import pytest
+from pypdf import PdfReader
+
+from audit.engine import Options
+from audit.pipeline import run_files
+from conftest import SAMPLE_CSV
+
+
+@pytest.fixture(scope="module")
+def sample_reports(tmp_path_factory):
+    out = tmp_path_factory.mktemp("reports")
+    run_files(SAMPLE_CSV, out, Options(), formats={"csv", "html", "pdf", "xlsx"}, quiet=True)
+    return out
+
+
+def _ranked_tags(folder):
+    with open(folder / "valves.csv", newline="", encoding="utf-8") as fh:
+        return [r["tag"] for r in csv.DictReader(fh)]
+
+
+def _in_order(text, tags):
+    positions, start = [], 0
+    for tag in tags:
+        i = text.find(tag, start)
+        assert i >= 0, f"{tag} missing or out of ranked order"
+        positions.append(i)
+        start = i + len(tag)
+    return positions
+
+
+def test_html_and_pdf_list_valves_in_ranked_order(sample_reports):
+    tags = _ranked_tags(sample_reports)
+    html = (sample_reports / "report.html").read_text(encoding="utf-8")
+    ranked = html[html.index('id="ranked"'):html.index('id="details"')]
+    _in_order(ranked, tags)
+    pdf = "\n".join(page.extract_text() for page in PdfReader(sample_reports / "report.pdf").pages)
+    ranked_pdf = pdf[pdf.index("All audited valves, ranked"):pdf.index("Valves with findings")]
+    _in_order(ranked_pdf, tags)
+
+
+def test_html_references_nothing_outside_itself(sample_reports):
+    html = (sample_reports / "report.html").read_text(encoding="utf-8")
+    assert not re.search(r"https?:|file:|ftp:", html, flags=re.I)
+    assert not re.search(r"""(src|href)\s*=\s*["']?//""", html, flags=re.I)
+    assert not re.search(r"""(src|href)\s*=\s*["']?(?!#)[a-z]""", html, flags=re.I)  # only in-page anchors
+    assert "<link" not in html and "<script" not in html
+
+
+def test_caution_and_methods_in_both_formats(sample_reports):
+    html = (sample_reports / "report.html").read_text(encoding="utf-8")
+    pdf = "\n".join(page.extract_text() for page in PdfReader(sample_reports / "report.pdf").pages)
+    for text in (html, pdf):
+        assert "Methods and assumptions" in text
+        assert "competent engineer" in text
+        assert "Local codes, regulations and licensed engineering practice govern" in " ".join(text.split())
+        assert "IEC 60534-2-1" in text
+
+
+def test_metadata_traces_the_input(sample_reports):
+    import hashlib
+    html = (sample_reports / "report.html").read_text(encoding="utf-8")
+    assert hashlib.sha256(SAMPLE_CSV.read_bytes()).hexdigest() in html
+    assert "fenmoor_unit.csv" in html
+
+
+def test_markup_in_line_list_text_appears_as_text(tmp_path):
+    f = tmp_path / "evil.csv"
+    f.write_text('tag,service,area,fluid,valve_size,rated_cv,fl,fd,xt,flow_max,p_in_max,p_out_max,t_in_max\n'
+                 '"<b>FV-1</b><img src=x onerror=alert(1)>","<script>alert(2)</script>","<i>A</i>",'
+                 'Water,50,20,0.9,0.46,0.7,30,10,2,20\n')
+    run_files(f, tmp_path / "out", Options(), formats={"csv", "html", "pdf"}, quiet=True)
+    html = (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
+    assert "<script>alert(2)" not in html and "<img src=x" not in html and "<b>FV-1" not in html
+    assert "&lt;script&gt;alert(2)&lt;/script&gt;" in html
+    pdf = "\n".join(p.extract_text() for p in PdfReader(tmp_path / "out" / "report.pdf").pages)
+    assert "<script>alert(2)</script>" in pdf  # shown as text
+
+
+def test_pdf_renderer_fetches_nothing():
+    from audit.report import RefuseEveryUrl, render_pdf
+    import tempfile, pathlib
+    fetcher_calls = []
+
+    class Spy(RefuseEveryUrl):
+        def __call__(self, url, *a, **k):
+            fetcher_calls.append(url)
+            return super().__call__(url, *a, **k)
+
+    import audit.report as report
+    original = report.RefuseEveryUrl
+    report.RefuseEveryUrl = Spy
+    try:
+        with tempfile.TemporaryDirectory() as d:
+            render_pdf('<html><body><img src="file:///etc/passwd"><img src="http://example.invalid/x.png">'
+                       '<p>text</p></body></html>', pathlib.Path(d) / "x.pdf")
+            assert (pathlib.Path(d) / "x.pdf").stat().st_size > 0
+    finally:
+        report.RefuseEveryUrl = original
+    assert fetcher_calls == ["file:///etc/passwd", "http://example.invalid/x.png"]  # asked, and refused
+
+
+def test_worklist_xlsx_is_ranked_and_neutralised(sample_reports):
+    from openpyxl import load_workbook
+    sheet = load_workbook(sample_reports / "worklist.xlsx").active
+    header = [c.value for c in sheet[1]]
+    assert header[:3] == ["rank", "tag", "area"]
+    ranks = [r[0].value for r in sheet.iter_rows(min_row=2)]
+    assert ranks == sorted(ranks)
