@@ -4,8 +4,10 @@ xF = dp / (p1 - pv) is compared with the incipient cavitation ratio xFz
 corrected to the inlet pressure, xFzp1 = xFz (6 bar / p1)^0.125 (IEC
 60534-8-4, clause on the characteristic pressure ratio), and with the
 choked ratio (FLP / FP)^2.  Where the line list gives no xFz it is
-estimated per IEC 60534-8-4 from Fd, FL and the case's required Kv:
-xFz = 0.90 / sqrt(1 + 3 Fd sqrt(Kv / (N34 FL))), N34 = 1.17 (Kv).
+estimated per IEC 60534-8-4 from Fd, FL and the case's required C:
+xFz = 0.90 / sqrt(1 + 3 Fd sqrt(C / (N34 FL))), with C as Cv and N34 = 1.17
+(the Kv form has N34 = 1.00; the two agree to the rounding of the constants, and
+the Cv form is the one that reproduces the standard's worked example).
 
 Levels: none (xF < xFzp1), incipient, developed (from our screening split
 of the cavitating range, a threshold below), choked (xF >= (FLP/FP)^2),
@@ -15,9 +17,11 @@ from __future__ import annotations
 
 import numpy as np
 
+from audit.sizing import KV_TO_CV
+
 from .base import Rule, RuleResult, Severity, Threshold, col, combine, findings, text, valid
 
-N34 = 1.17
+N34_CV = 1.17
 P_REFERENCE = 6.0e5  # Pa, reference inlet pressure of xFz
 
 
@@ -26,8 +30,10 @@ def estimate_xfz(kv, fd, fl):
 
     kv: flow coefficient Kv [m3/h] (the case's required one); fd: valve
     style modifier; fl: liquid pressure recovery factor.  Dimensionless.
+    Valid for single-stage trims; multi-hole trims have their own estimate.
     """
-    return 0.90 / np.sqrt(1.0 + 3.0 * fd * np.sqrt(kv / (N34 * fl)))
+    cv = np.asarray(kv, float) * KV_TO_CV
+    return 0.90 / np.sqrt(1.0 + 3.0 * fd * np.sqrt(cv / (N34_CV * fl)))
 
 
 def xfz_at_inlet(xfz, p1):
