@@ -67,7 +67,7 @@ def run(
                                                           "equation of state) or a tabular one, BICUBIC&HEOS."),
     max_rows: int = typer.Option(100_000, "--max-rows", help="Refuse a line list with more rows."),
     max_bytes: int = typer.Option(50_000_000, "--max-bytes", help="Refuse a line list file larger than this."),
-    max_cell: int = typer.Option(10_000, "--max-cell", help="Reject a row with a longer cell."),
+    max_cell: int = typer.Option(1_000, "--max-cell", help="Reject a row with a longer cell."),
     quiet: bool = typer.Option(False, "--quiet", help="No progress or summary on the terminal (for schedulers)."),
 ):
     """Audit LINELIST and write results.csv, valves.csv, rejected.csv and the reports into --out.

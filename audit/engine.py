@@ -190,6 +190,30 @@ def add_outlet_state(cases: pd.DataFrame, ll: LineList, options: Options) -> Non
     cases.loc[~ok, ["rho_out", "quality_out", "t_out", "sound_speed_out"]] = np.nan
 
 
+def reject_unauditable(ll: LineList, cases: pd.DataFrame) -> tuple[LineList, pd.DataFrame]:
+    """Move valves none of whose cases can be audited (found only once properties are known,
+    such as a two-phase inlet at every case) from the audited valves to the rejected rows."""
+    bad_case = cases["case_error"].to_numpy(dtype=object) != ""
+    all_bad = pd.Series(bad_case).groupby(cases["valve"].to_numpy()).all()
+    drop = all_bad.index[all_bad.to_numpy()].to_numpy(int)
+    if drop.size == 0:
+        return ll, cases
+    reasons = cases[np.isin(cases["valve"], drop)].groupby("valve").apply(
+        lambda g: "; ".join(f"case {c}: {e}" for c, e in zip(g["case"], g["case_error"])), include_groups=False)
+    gone = ll.valves.iloc[drop]
+    rejected = pd.concat([ll.rejected, pd.DataFrame({"row": gone["row"].to_numpy(), "tag": gone["tag"].to_numpy(),
+                                                     "reason": reasons.loc[drop].to_numpy()})], ignore_index=True)
+    rejected = rejected.sort_values("row", kind="stable").reset_index(drop=True)
+    keep = np.setdiff1d(np.arange(len(ll.valves)), drop)
+    remap = -np.ones(len(ll.valves), dtype=int)
+    remap[keep] = np.arange(keep.size)
+    valves = ll.valves.iloc[keep].reset_index(drop=True)
+    cases = cases[~np.isin(cases["valve"], drop)].copy()
+    cases["valve"] = remap[cases["valve"].to_numpy(int)]
+    cases = cases.reset_index(drop=True)
+    return LineList(valves, ll.cases, rejected, ll.ignored_columns, ll.rows_total), cases
+
+
 def compute(ll: LineList, options: Options | None = None) -> Audit:
     """Audit a loaded line list: every case sized, screened and ranked."""
     from rules import apply_rules  # the rules package depends on audit, not the reverse
@@ -199,6 +223,7 @@ def compute(ll: LineList, options: Options | None = None) -> Audit:
     cases = case_table(ll, options)
     add_properties(cases, ll, options)
     add_mass_flow(cases)
+    ll, cases = reject_unauditable(ll, cases)
     add_sizing(cases)
     add_outlet_state(cases, ll, options)
     findings = apply_rules(cases, options.thresholds)

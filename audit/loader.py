@@ -76,7 +76,7 @@ class Limits:
     """Refusal limits for an input, so a huge or hostile file is refused, not ground through."""
     max_bytes: int = 50_000_000
     max_rows: int = 100_000
-    max_cell_chars: int = 10_000
+    max_cell_chars: int = 1_000
 
 
 class InputError(Exception):

@@ -67,9 +67,9 @@ def to_csv_text(frame: pd.DataFrame) -> str:
     """CSV text with formula-like cells neutralised, booleans as true/false, floats in full."""
     safe = frame.copy()
     for c in safe.columns:
-        if safe[c].dtype == bool:
+        if pd.api.types.is_bool_dtype(safe[c].dtype):
             safe[c] = np.where(safe[c], "true", "false")
-        elif safe[c].dtype == object:
+        elif not pd.api.types.is_numeric_dtype(safe[c].dtype):  # object or string columns
             safe[c] = safe[c].map(lambda v: neutralise(v) if isinstance(v, str) else
                                   ("true" if v is True else "false" if v is False else v))
     return safe.to_csv(index=False, lineterminator="\n", float_format="%.6g")

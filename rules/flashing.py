@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .base import Rule, RuleResult, Severity, bar, col, findings, text, valid
+from .base import Rule, RuleResult, Severity, bar, col, combine, findings, text, valid
 
 
 def evaluate(cases, th) -> RuleResult:
@@ -31,9 +31,20 @@ def evaluate(cases, th) -> RuleResult:
         return (f"Flashing at case {name[i]}: outlet {bar(p2[i])} is at or below the vapour pressure "
                 f"{bar(pv[i])}; {share}. Expect erosion of trim and body downstream of the seat.")
 
-    return RuleResult(columns={"flashing": flashing, "vapour_fraction_out": quality},
-                      findings=findings(flashing, "FLASHING", Severity.PLAN, sentence))
+    # A dense gas can cool into the two-phase region as it expands (Joule-Thomson): the outlet is
+    # then a wet vapour, outside the gas sizing and noise methods, with no single speed of sound.
+    gas_quality = col(cases, "quality_out")
+    condensing = ok & (text(cases, "phase") == "gas") & (gas_quality < 1.0)
+    return RuleResult(
+        columns={"flashing": flashing, "vapour_fraction_out": quality},
+        findings=combine(
+            findings(flashing, "FLASHING", Severity.PLAN, sentence),
+            findings(condensing, "CONDENSING", Severity.WATCH, lambda i: (
+                f"Gas partly condenses across the valve at case {name[i]}: {(1 - gas_quality[i]) * 100:.1f} % of the "
+                f"mass leaves as liquid at {bar(p2[i])}; the gas methods assume a dry outlet, so treat the "
+                "velocity and choking figures as rough and check for liquid slugs and erosion."))))
 
 
 RULE = Rule(code="flashing", title="Flashing", order=15, evaluate=evaluate, thresholds=(),
-            description="p_out at or below the vapour pressure; outlet vapour fraction by isenthalpic flash")
+            description="p_out at or below the vapour pressure; outlet vapour fraction by isenthalpic flash; "
+                        "gas that condenses across the valve")

@@ -1,0 +1,180 @@
+"""A hostile line list: one defect per row, beside valid rows (issue 5).
+
+Every row must be accounted for, each defect rejected with the right reason, and the valid rows
+audited with the same numbers as when they stand alone.
+"""
+import csv
+
+import numpy as np
+import pytest
+from openpyxl import Workbook
+
+from audit.engine import Options, compute
+from audit.loader import load_linelist
+from audit.outputs import neutralise, to_csv_text
+from audit.pipeline import run_files
+
+HEADER = ["tag", "service", "fluid", "phase", "valve_size", "rated_cv", "fl", "xt", "fd", "pipe_in_id",
+          "flow_max", "p_in_max", "p_out_max", "t_in_max", "flow_norm", "p_in_norm", "p_out_norm", "t_in_norm"]
+GOOD = dict(service="ok", fluid="Water", phase="", valve_size="50", rated_cv="40", fl="0.9", xt="0.7", fd="0.46",
+            pipe_in_id="", flow_max="20", p_in_max="10", p_out_max="5", t_in_max="20",
+            flow_norm="", p_in_norm="", p_out_norm="", t_in_norm="")
+
+
+def row(tag, **changes):
+    r = dict(GOOD, tag=tag)
+    r.update(changes)
+    return r
+
+
+# (row, expected: "valid" or a fragment of the reason)
+ROWS = [
+    (row("GOOD-1"), "valid"),
+    (row(""), "column 'tag' is blank"),
+    (row("DUP-1"), "appears more than once"),
+    (row("DUP-1", rated_cv="41"), "appears more than once"),
+    (row("FLUID-1", fluid="Watter"), "unknown fluid 'Watter'"),
+    (row("UNIT-1", p_in_max="10 furlongs"), "unknown unit 'furlongs'"),
+    (row("PREV-1", p_out_max="12"), "above p_in"),
+    (row("FLOW-1", flow_max="-20"), "not a positive flow"),
+    (row("FL-1", fl="1.2"), "0 < FL <= 1"),
+    (row("XT-1", xt="1.0"), "0 < xT < 1"),
+    (row("FD-1", fd="0"), "0 < Fd <= 1"),
+    (row("CV-1", rated_cv="-5"), "must be above 0"),
+    (row("TEXTCV-1", rated_cv="abc"), "column 'rated_cv': value 'abc' is not a number"),
+    (row("SIZE-1", valve_size="0"), "column 'valve_size'"),
+    (row("PIPE-1", valve_size="100", pipe_in_id="20"), "much smaller than the valve size"),
+    (row("TEMP-1", t_in_max="-300"), "below absolute zero"),
+    (row("SAT-1", p_in_max="1.01325", p_out_max="0.5", t_in_max="100"), "at saturation"),
+    (row("COMMA-1", p_out_max="4,5"), "valid"),
+    (row("MINUS-1", fluid="Propane", t_in_max="\u221220", p_in_max="10", p_out_max="6"), "valid"),
+    (row("T" * 5000), "a cell of 5,000 characters"),
+    (row("<b>MARK-1</b>", service='=HYPERLINK("http://example.invalid","click")'), "valid"),
+    (row("+SUM(A1)", service="@cmd"), "valid"),
+    (row("ZERO-DP-1", flow_norm="15", p_in_norm="10", p_out_norm="10", t_in_norm="20"), "valid"),
+]
+
+
+def _write_csv(path, rows):
+    with open(path, "w", newline="", encoding="utf-8") as fh:
+        w = csv.DictWriter(fh, fieldnames=HEADER)
+        w.writeheader()
+        for i, r in enumerate(rows):
+            w.writerow(r)
+            if i == 5:
+                fh.write("," * (len(HEADER) - 1) + "\n")  # a blank row in the middle
+    return path
+
+
+def _write_xlsx(path, rows):
+    book = Workbook()
+    sheet = book.active
+    sheet.append(HEADER)
+    for i, r in enumerate(rows):
+        sheet.append([r[h] for h in HEADER])
+        if i == 5:
+            sheet.append([None] * len(HEADER))
+    for cells in sheet.iter_rows(min_row=2):
+        for c in cells:
+            if isinstance(c.value, str):
+                c.data_type = "s"  # as a person typed it: text, not a formula
+    book.save(path)
+    return path
+
+
+@pytest.fixture(params=["csv", "xlsx"])
+def hostile(request, tmp_path):
+    rows = [r for r, _ in ROWS]
+    path = tmp_path / f"hostile.{request.param}"
+    (_write_csv if request.param == "csv" else _write_xlsx)(path, rows)
+    return path
+
+
+def test_every_row_accounted_with_the_right_reason(hostile):
+    audit = compute(load_linelist(hostile))
+    assert audit.linelist.rows_total == len(ROWS)  # the blank row skipped silently
+    assert len(audit.valves) + len(audit.rejected) == len(ROWS)
+    rejected = {int(r): reason for r, reason in zip(audit.rejected["row"], audit.rejected["reason"])}
+    audited_rows = set(audit.linelist.valves["row"])
+    for i, (r, expected) in enumerate(ROWS):
+        spreadsheet_row = i + 2 + (1 if i > 5 else 0)
+        if expected == "valid":
+            assert spreadsheet_row in audited_rows, (r["tag"][:20], rejected.get(spreadsheet_row))
+        else:
+            assert spreadsheet_row in rejected, r["tag"][:20]
+            assert expected in rejected[spreadsheet_row], (expected, rejected[spreadsheet_row])
+            assert rejected[spreadsheet_row].count(";") <= 2  # one defect, one reason (plus its own detail)
+
+
+def test_valid_rows_give_the_same_numbers_as_alone(hostile, tmp_path):
+    together = compute(load_linelist(hostile)).cases.set_index(["tag", "case"])
+    for r, expected in ROWS:
+        if expected != "valid":
+            continue
+        alone = compute(load_linelist(_write_csv(tmp_path / "alone.csv", [r]))).cases.set_index(["tag", "case"])
+        for key in alone.index:
+            for col in ("cv", "choke_ratio", "travel_pct", "velocity_out_m_s"):
+                a, b = alone.loc[key, col], together.loc[key, col]
+                assert (np.isnan(a) and np.isnan(b)) or a == b, (key, col)
+
+
+def test_bad_case_is_reported_and_good_case_kept(tmp_path):
+    audit = compute(load_linelist(_write_csv(tmp_path / "h.csv", [r for r, _ in ROWS])))
+    c = audit.cases[audit.cases["tag"] == "ZERO-DP-1"].set_index("case")
+    assert c.loc["max", "cv"] > 0 and c.loc["max", "case_error"] == ""
+    assert "no pressure drop" in c.loc["norm", "case_error"]
+
+
+def test_outputs_neutralise_formulas_and_escape_markup(tmp_path):
+    path = _write_csv(tmp_path / "h.csv", [r for r, _ in ROWS])
+    run_files(path, tmp_path / "out", Options(), formats={"csv", "html", "xlsx"}, quiet=True)
+    for name in ("results.csv", "valves.csv", "rejected.csv"):
+        with open(tmp_path / "out" / name, newline="", encoding="utf-8") as fh:
+            for rec in csv.reader(fh):
+                for cell in rec:
+                    first = cell[:1]
+                    assert not (first and (first in "=@" or (first in "+-" and cell[1:2].isalpha()))), (name, cell)
+    valves = (tmp_path / "out" / "valves.csv").read_text(encoding="utf-8")
+    assert "'=HYPERLINK" in valves and "'+SUM(A1)" in valves and "'@cmd" in valves
+    html = (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
+    assert "&lt;b&gt;MARK-1&lt;/b&gt;" in html and "<b>MARK-1</b>" not in html
+    from openpyxl import load_workbook
+    sheet = load_workbook(tmp_path / "out" / "worklist.xlsx").active
+    for cells in sheet.iter_rows(min_row=2):
+        for c in cells:
+            assert c.data_type != "f", c.value
+
+
+@pytest.mark.parametrize("value,expected", [("=1+2", "'=1+2"), ("+A1", "'+A1"), ("-cmd", "'-cmd"), ("@x", "'@x"),
+                                            ("-5", "-5"), ("plain", "plain"), ('-"x"', "'-\"x\"")])
+def test_neutralise(value, expected):
+    assert neutralise(value) == expected
+
+
+def test_xlsx_formulas_are_not_evaluated(tmp_path):
+    # A formula cell is read as the value the spreadsheet stored (none here: never calculated),
+    # never evaluated by us: the row is rejected for a blank value, not audited with a made-up one.
+    book = Workbook()
+    sheet = book.active
+    sheet.append(HEADER)
+    sheet.append([GOOD.get(h, "") if h != "tag" else "F-1" for h in HEADER])
+    sheet["F2"] = "=20*2"          # rated_cv as a formula
+    sheet["B2"] = '=WEBSERVICE("http://example.invalid")'
+    book.save(tmp_path / "f.xlsx")
+    audit = compute(load_linelist(tmp_path / "f.xlsx"))
+    assert len(audit.valves) == 0
+    assert "rated_cv" in audit.rejected["reason"].iloc[0]
+
+
+def test_oversized_input_is_refused(tmp_path):
+    from audit.loader import InputError, Limits
+    path = _write_csv(tmp_path / "h.csv", [r for r, _ in ROWS])
+    with pytest.raises(InputError, match="rows"):
+        load_linelist(path, limits=Limits(max_rows=5))
+    with pytest.raises(InputError, match="bytes"):
+        load_linelist(path, limits=Limits(max_bytes=100))
+
+
+def test_unknown_fluid_suggests_the_nearest_names(tmp_path):
+    audit = compute(load_linelist(_write_csv(tmp_path / "h.csv", [row("F", fluid="Methan")])))
+    assert "Methane" in audit.rejected["reason"].iloc[0]
