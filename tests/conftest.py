@@ -13,6 +13,8 @@ settings.register_profile("repeatable", derandomize=True, deadline=None,
 settings.load_profile("repeatable")
 
 ROOT = Path(__file__).resolve().parents[1]
+import sys  # noqa: E402
+sys.path.insert(0, str(ROOT / "benchmarks"))  # the reference loop and synthetic line lists
 SAMPLE_CSV = ROOT / "sample_linelist" / "fenmoor_unit.csv"
 SAMPLE_XLSX = ROOT / "sample_linelist" / "fenmoor_unit.xlsx"
 R = 8.314462618

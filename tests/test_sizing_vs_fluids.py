@@ -7,7 +7,7 @@ tenths of a percent short of its own fixed point (seen: 598.6 against 601.6, 39.
 39.87, 834 against 860 at C/d^2 = 0.13).  So with reducers we compare with the same
 reference carried to convergence: its base coefficient (size_control_valve_* without
 diameters) and its public pieces loss_coefficient_piping, is_choked_turbulent_l/_g and
-FF_critical_pressure_ratio_l, iterated here to 1e-7.  Without reducers we compare with
+FF_critical_pressure_ratio_l, iterated to 1e-7 (benchmarks/reference.py).  Without reducers we compare with
 size_control_valve_* directly.  And, for viscous liquids, fluids.control_valve.Reynolds_valve and Reynolds_factor solved
 for C * FR(C) = C_turbulent by a scalar bisection here.  We do not use the laminar branch of
 size_control_valve_l for that: it returns C stepped by 30 % (the standard's hand procedure),
@@ -24,6 +24,7 @@ from hypothesis import strategies as st
 
 fluids_cv = pytest.importorskip("fluids.control_valve")
 
+import reference  # noqa: E402  (benchmarks/reference.py: fluids carried to convergence)
 from audit.sizing import N18, size_valves  # noqa: E402
 from conftest import R  # noqa: E402
 
@@ -60,10 +61,10 @@ def test_turbulent_liquid_matches_fluids(c):
             c["p1"] - p2, c["p1"], pv, ff, FLP=ours["flp"][0], FP=ours["fp"][0])
 
 
-def _compare_kv(ours, reference):
+def _compare_kv(ours, ref):
     """Ours against the reference: the closed form without reducers, the reference's step with them.
 
-    ``reference`` is a number (no reducers: size_control_valve_* itself) or a pair (step, c0):
+    ``ref`` is a number (no reducers: size_control_valve_* itself) or a pair (step, c0):
     the reference's own equations as a map C -> C_required(C) and its starting point.  With
     reducers we require (1) that our C is a fixed point of the reference's equations to 0.5 %
     (no convergence or amplification question arises there), and (2) that ours is not above the
@@ -76,70 +77,30 @@ def _compare_kv(ours, reference):
     (from memory); beyond, the amplification grows without bound (6 % seen at C/d^2 = 0.59).
     """
     kv = ours["kv"][0]
-    if not isinstance(reference, tuple):
-        assert kv == pytest.approx(reference, rel=TOL)
+    if not isinstance(ref, tuple):
+        assert kv == pytest.approx(ref, rel=TOL)
         return
-    step, c0, d = reference
+    step, c0, d = ref
     assert step(kv) == pytest.approx(kv, rel=TOL)
-    fixed = _converge(step, c0)
+    fixed = reference.converge(step, c0)
     if np.isfinite(fixed) and kv / (d * 1000) ** 2 <= 0.04:
         assert kv <= fixed * 1.02
-
-
-def _converge(step, c0):
-    """Fixed point of a reference step function, from c0, to 1e-7 (NaN if it will not settle)."""
-    c = c0
-    for _ in range(2000):
-        nxt = step(c)
-        if not np.isfinite(nxt):
-            return math.nan
-        if abs(nxt / c - 1) < 1e-7:
-            return nxt
-        c = nxt
-    return math.nan
 
 
 def _reference_liquid(rho, pv, pc, mu, p1, p2, q, d, d1, d2, fl, fd):
     if d1 == d2 == d:
         return fluids_cv.size_control_valve_l(rho=rho, Psat=pv, Pc=pc, mu=mu, P1=p1, P2=p2, Q=q / 3600, D1=d1,
                                               D2=d2, d=d, FL=fl, Fd=fd, allow_laminar=False)
-    ff = fluids_cv.FF_critical_pressure_ratio_l(Psat=pv, Pc=pc)
-    base_open = fluids_cv.size_control_valve_l(rho=rho, Psat=pv, Pc=pc, mu=mu, P1=p1, P2=p2, Q=q / 3600,
-                                               FL=fl, allow_choked=False)
-    base_choked = base_open * math.sqrt((p1 - p2) / (p1 - ff * pv))  # IEC eq. (3) over eq. (1)
-    loss = fluids_cv.loss_coefficient_piping(d * 1000, d1 * 1000, d2 * 1000)
-    loss_in = fluids_cv.loss_coefficient_piping(d * 1000, d1 * 1000)
-
-    def step(c):
-        r2 = (c / (d * 1000) ** 2) ** 2
-        fp = 1 / math.sqrt(1 + loss / 1.6e-3 * r2)
-        flp = fl / math.sqrt(1 + fl ** 2 / 1.6e-3 * loss_in * r2)
-        if fluids_cv.is_choked_turbulent_l(p1 - p2, p1, pv, ff, FLP=flp, FP=fp):
-            return base_choked / flp
-        return base_open / fp
-    return step, base_open, d
+    step, c0 = reference.liquid_step(rho, pv, pc, mu, p1, p2, q / 3600, d, d1, d2, fl)
+    return step, c0, d
 
 
 def _reference_gas(t, m, mu, k, z, p1, p2, q, d, d1, d2, fl, fd, xt):
-    kw = dict(T=t, MW=m, mu=mu, gamma=k, Z=z, P1=p1, P2=p2, Q=q / 3600, xT=xt, FL=fl, Fd=fd)
     if d1 == d2 == d:
-        return fluids_cv.size_control_valve_g(D1=d1, D2=d2, d=d, allow_laminar=False, **kw)
-    x = (p1 - p2) / p1
-    f_gamma = k / 1.4
-    open_c = fluids_cv.size_control_valve_g(allow_choked=False, **kw)      # eq. (8a), Y with xT
-    y_open = max(1 - x / (3 * f_gamma * xt), 2 / 3)
-    base = open_c * y_open                                                 # C * Y, no fittings
-    loss = fluids_cv.loss_coefficient_piping(d * 1000, d1 * 1000, d2 * 1000)
-    loss_in = fluids_cv.loss_coefficient_piping(d * 1000, d1 * 1000)
-
-    def step(c):
-        r2 = (c / (d * 1000) ** 2) ** 2
-        fp = 1 / math.sqrt(1 + loss / 1.6e-3 * r2)
-        xtp = xt / fp ** 2 / (1 + xt * loss_in / 1.8e-3 * r2)
-        if fluids_cv.is_choked_turbulent_g(x, f_gamma, xTP=xtp):
-            return base / (2 / 3) / fp * math.sqrt(x / (f_gamma * xtp))    # eq. (17a)
-        return base / y_open / fp                                          # eq. (11a)
-    return step, open_c, d
+        return fluids_cv.size_control_valve_g(T=t, MW=m, mu=mu, gamma=k, Z=z, P1=p1, P2=p2, Q=q / 3600, xT=xt,
+                                              FL=fl, Fd=fd, D1=d1, D2=d2, d=d, allow_laminar=False)
+    step, c0 = reference.gas_step(t, m, mu, k, z, p1, p2, q / 3600, d, d1, d2, fl, fd, xt)
+    return step, c0, d
 
 
 gas = st.fixed_dictionaries({

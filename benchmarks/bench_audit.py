@@ -1,0 +1,170 @@
+"""Throughput of the whole audit, and the same work done row by row.
+
+Prints, for synthetic line lists of 2,000 and 20,000 valves (three cases each, fixed seed):
+valve-cases per second from file to the CSV outputs, the growth ratio between the two sizes,
+peak memory; on the 2,000-valve list, the time per case of a plain row-by-row reference loop
+(a CoolProp PropsSI call per property and the `fluids` library's scalar sizing functions per
+case, carried to convergence where reducers make them iterate: see reference.py) and the speed ratio; and the time to write the HTML and PDF reports for 2,000 valves.
+
+Each measurement runs in a fresh process, so CoolProp's caches start cold every time.
+
+    python benchmarks/bench_audit.py               # the full run (a few minutes, most of it the PDF)
+    python benchmarks/bench_audit.py --small 300   # smoke test: every step at 300 valves
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import platform
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE))
+sys.path.insert(0, str(HERE.parent))
+
+
+def _measure_audit(path: str, out: str, formats: str) -> dict:
+    """In this (fresh) process: the audit from file to outputs; time and peak memory."""
+    import resource
+
+    from audit.engine import Options
+    from audit.pipeline import run_files
+
+    t0 = time.perf_counter()
+    summary = run_files(Path(path), Path(out), Options(), formats=set(formats.split(",")), quiet=True)
+    seconds = time.perf_counter() - t0
+    peak_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+    return {"seconds": seconds, "cases": summary.cases, "valves": summary.audited, "peak_mb": peak_mb}
+
+
+def _measure_report(path: str, out: str) -> dict:
+    """In this (fresh) process: the audit once, then the HTML and the PDF, each timed."""
+    from audit.engine import Options
+    from audit.pipeline import run_audit, run_metadata
+    from audit.report import build_context, render_html, render_pdf
+
+    options = Options()
+    audit = run_audit(Path(path), options)
+    meta = run_metadata(Path(path), options, None, None)
+    t0 = time.perf_counter()
+    context = build_context(audit, meta)
+    html = render_html(context)
+    (Path(out) / "report.html").write_text(html, encoding="utf-8")
+    t_html = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    render_pdf(html, Path(out) / "report.pdf")
+    t_pdf = time.perf_counter() - t0
+    plotted = sum(1 for d in context["details"] if d["svg"])
+    return {"html_seconds": t_html, "pdf_seconds": t_pdf, "valves": len(audit.valves),
+            "valves_with_findings": len(context["details"]), "valves_plotted": plotted}
+
+
+def reference_row_by_row(path: Path) -> tuple[list[dict], float]:
+    """The plain loop: per case, PropsSI for each property, then fluids' scalar sizing.
+
+    Returns the Kv per (tag, case) and the seconds taken.  Same inputs as the audit, read with
+    the project's loader so that only properties and sizing are compared.
+    """
+    import CoolProp.CoolProp as CP
+
+    from audit.engine import Options, case_table
+    from audit.loader import load_linelist
+
+    ll = load_linelist(path)
+    cases = case_table(ll, Options())
+    fluid_names = ll.valves["fluid"].to_numpy()[cases["valve"].to_numpy(int)]
+    phases = cases["phase_given"].to_numpy()
+    results = []
+    t0 = time.perf_counter()
+    for i, c in enumerate(cases.itertuples()):
+        name = fluid_names[i].strip()
+        p1, p2, t1 = c.p_in, c.p_out, c.t_in
+        rho = CP.PropsSI("D", "P", p1, "T", t1, name)
+        mu = CP.PropsSI("V", "P", p1, "T", t1, name)
+        if phases[i]:
+            gas = phases[i] == "gas"
+        elif "&" in name:
+            gas = True  # the synthetic mixtures are all natural gas
+        else:
+            gas = t1 >= CP.PropsSI("TCRIT", name) or p1 < CP.PropsSI("P", "T", t1, "Q", 0, name)
+        w = c.flow if c.flow_basis == "mass" else c.flow * rho
+        d, d1, d2 = c.valve_size, max(c.pipe_in_id, c.valve_size), max(c.pipe_out_id, c.valve_size)
+        try:
+            kv = _reference_kv(CP, gas, name, p1, p2, t1, rho, mu, w, d, d1, d2, c)
+            error = ""
+        except Exception as exc:  # the reference's own failures are counted, not hidden
+            kv, error = math.nan, f"{type(exc).__name__}: {exc}"[:120]
+        results.append({"tag": c.tag, "case": c.case, "kv": kv, "gas": bool(gas), "error": error})
+    return results, time.perf_counter() - t0
+
+
+def _reference_kv(CP, gas, name, p1, p2, t1, rho, mu, w, d, d1, d2, c):
+    """One case through PropsSI and fluids' scalar sizing (see reference.py)."""
+    import reference
+
+    if gas:
+        mw = CP.PropsSI("M", "P", p1, "T", t1, name) * 1000.0
+        z = CP.PropsSI("Z", "P", p1, "T", t1, name)
+        k = CP.PropsSI("CPMASS", "P", p1, "T", t1, name) / CP.PropsSI("CVMASS", "P", p1, "T", t1, name)
+        q_normal = w / (101325.0 * mw / 1000.0 / (8.314462618 * 273.15))
+        return reference.kv_gas(t1, mw, mu, k, z, p1, p2, q_normal, d, d1, d2, c.fl, c.fd, c.xt)
+    psat = CP.PropsSI("P", "T", t1, "Q", 0, name)
+    pc = CP.PropsSI("PCRIT", name)
+    return reference.kv_liquid(rho, psat, pc, mu, p1, p2, w / rho, d, d1, d2, c.fl, c.fd)
+
+
+def _measure_reference(path: str) -> dict:
+    results, seconds = reference_row_by_row(Path(path))
+    return {"seconds": seconds, "cases": len(results)}
+
+
+def _child(func: str, *args: str) -> dict:
+    """Run one measurement in a fresh interpreter and return its JSON result."""
+    code = (f"import sys, json; sys.path.insert(0, {str(HERE)!r}); sys.path.insert(0, {str(HERE.parent)!r}); "
+            f"import bench_audit as b; print(json.dumps(b.{func}(*{list(args)!r})))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--small", type=int, default=0, help="smoke test: run every step at this many valves")
+    args = parser.parse_args(argv)
+    from synthetic import make_linelist
+
+    small, large = (args.small, args.small * 10) if args.small else (2000, 20000)
+    with tempfile.TemporaryDirectory() as tmp:
+        tmp = Path(tmp)
+        lists = {n: make_linelist(n, tmp / f"linelist_{n}.csv") for n in (small, large)}
+        print(f"machine: {platform.machine()}, {platform.processor() or platform.platform()}, "
+              f"Python {platform.python_version()}")
+        runs = {}
+        for n, path in lists.items():
+            out = tmp / f"out_{n}"
+            out.mkdir()
+            runs[n] = r = _child("_measure_audit", str(path), str(out), "csv")
+            print(f"{n:>6} valves, {r['cases']:>6} cases: {r['seconds']:7.2f} s file to CSV outputs, "
+                  f"{r['cases'] / r['seconds']:9.0f} valve-cases/s, peak memory {r['peak_mb']:7.0f} MB")
+        growth = runs[large]["seconds"] / runs[small]["seconds"]
+        print(f"growth for {large // small}x the work: {growth:.2f}x")
+        ref = _child("_measure_reference", str(lists[small]))
+        ours_per_case = runs[small]["seconds"] / runs[small]["cases"]
+        ref_per_case = ref["seconds"] / ref["cases"]
+        print(f"row-by-row reference on {small} valves: {ref['seconds']:.2f} s, {ref_per_case * 1e3:.3f} ms/case; "
+              f"audit {ours_per_case * 1e3:.4f} ms/case (end to end, file to CSV); "
+              f"speed ratio {ref_per_case / ours_per_case:.0f}x")
+        out = tmp / "report"
+        out.mkdir()
+        rep = _child("_measure_report", str(lists[small]), str(out))
+        print(f"report for {rep['valves']} valves ({rep['valves_with_findings']} with findings, "
+              f"{rep['valves_plotted']} plotted): HTML {rep['html_seconds']:.1f} s, PDF {rep['pdf_seconds']:.1f} s")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
