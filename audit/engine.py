@@ -38,6 +38,7 @@ class Audit:
     findings: pd.DataFrame     # one row per finding: case row, code, severity, sentence
     linelist: LineList
     options: Options
+    valve_extra_columns: tuple[str, ...] = ()   # valves.csv columns beyond the contract
 
 
 def case_table(ll: LineList, options: Options) -> pd.DataFrame:
@@ -228,4 +229,9 @@ def compute(ll: LineList, options: Options | None = None) -> Audit:
     add_outlet_state(cases, ll, options)
     findings = apply_rules(cases, options.thresholds)
     valves = rank_valves(ll.valves, cases, findings)
-    return Audit(cases, valves, ll.rejected, findings, ll, options)
+    from rules import effective_thresholds
+    from .headroom import add_headroom
+    extra = add_headroom(cases, valves, effective_thresholds(options.thresholds)["travel"]["high_pct"])
+    audit = Audit(cases, valves, ll.rejected, findings, ll, options)
+    audit.valve_extra_columns = tuple(extra)
+    return audit

@@ -241,13 +241,15 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     reasons.add(~has_case, "no operating case: fill flow_<case>, p_in_<case>, p_out_<case> and "
                            "t_in_<case> for at least one case (for example flow_max)")
     if len(cases):
-        good_case = cases.groupby("valve")["case_error"].apply(lambda e: (e == "").any())
-        all_bad = np.zeros(n, dtype=bool)
-        all_bad[good_case.index[~good_case.to_numpy()]] = True
-        case_msgs = cases.groupby("valve").apply(
-            lambda g: "; ".join(f"case {c}: {e}" for c, e in zip(g["case"], g["case_error"]) if e),
-            include_groups=False)
-        reasons.add(all_bad, lambda i: case_msgs[i])
+        valve_of = cases["valve"].to_numpy(int)
+        good = cases["case_error"].to_numpy(dtype=object) == ""
+        all_bad = np.bincount(valve_of, weights=good, minlength=n) == 0
+        all_bad &= has_case
+        errors = cases["case_error"].to_numpy(dtype=object)
+        names = cases["case"].to_numpy(dtype=object)
+        for i in np.flatnonzero(all_bad):
+            rows = np.flatnonzero(valve_of == i)
+            reasons.text[i].append("; ".join(f"case {names[r]}: {errors[r]}" for r in rows if errors[r]))
 
     bad = reasons.bad()
     rejected = pd.DataFrame({"row": row_numbers[bad], "tag": text["tag"][bad],
@@ -288,12 +290,13 @@ def _columns(raw: pd.DataFrame) -> tuple[dict[str, int], dict[str, str], list[st
 def _text(table: pd.DataFrame, col: str) -> np.ndarray:
     if col not in table:
         return np.full(len(table), "", dtype=object)
-    return table[col].map(lambda v: str(v).strip()).to_numpy(dtype=object)
+    return np.array([str(v).strip() for v in table[col].to_numpy(dtype=object)], dtype=object)
 
 
 def _check_cell_length(table: pd.DataFrame, limits: Limits, reasons: _Reasons) -> None:
     for col in table.columns:
-        lengths = table[col].map(lambda v: len(str(v))).to_numpy()
+        lengths = np.fromiter((len(str(v)) for v in table[col].to_numpy(dtype=object)), dtype=np.int64,
+                              count=len(table))
         reasons.add(lengths > limits.max_cell_chars,
                     lambda i, col=col, lengths=lengths: f"column '{col}': a cell of {lengths[i]:,} characters, "
                     f"over the limit of {limits.max_cell_chars:,}")

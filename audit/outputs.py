@@ -64,15 +64,17 @@ def results_table(cases: pd.DataFrame) -> pd.DataFrame:
 
 
 def to_csv_text(frame: pd.DataFrame) -> str:
-    """CSV text with formula-like cells neutralised, booleans as true/false, floats in full."""
+    """CSV text: formula-like cells neutralised, booleans true/false, floats to 6 significant digits."""
     safe = frame.copy()
     for c in safe.columns:
-        if pd.api.types.is_bool_dtype(safe[c].dtype):
+        if pd.api.types.is_float_dtype(safe[c].dtype):
+            safe[c] = [f"{v:.6g}" if v == v else "" for v in safe[c].to_numpy(float).tolist()]
+        elif pd.api.types.is_bool_dtype(safe[c].dtype):
             safe[c] = np.where(safe[c], "true", "false")
         elif not pd.api.types.is_numeric_dtype(safe[c].dtype):  # object or string columns
-            safe[c] = safe[c].map(lambda v: neutralise(v) if isinstance(v, str) else
-                                  ("true" if v is True else "false" if v is False else v))
-    return safe.to_csv(index=False, lineterminator="\n", float_format="%.6g")
+            safe[c] = [neutralise(v) if isinstance(v, str) else ("true" if v is True else "false" if v is False else v)
+                        for v in safe[c].to_numpy(dtype=object).tolist()]
+    return safe.to_csv(index=False, lineterminator="\n")
 
 
 @contextmanager

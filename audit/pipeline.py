@@ -78,6 +78,10 @@ def run_files(linelist: Path, out: Path, options: Options, limits: Limits | None
     with staged_folder(Path(out)) as stage:
         progress.say("Writing CSV outputs")
         write_csvs(stage, audit)
+        info = {k: meta[k] for k in ("output_format_version", "tool_version", "input_file", "input_sha256",
+                                     "rules_file_sha256", "flow_scale", "scale_cases", "area_scale")}
+        # No date here: the same input and options give the same bytes (the date is in the report).
+        (stage / "audit_info.json").write_text(json.dumps(info, indent=1, sort_keys=True) + "\n", encoding="utf-8")
         if "json" in formats:
             (stage / "audit.json").write_text(_json(audit, meta), encoding="utf-8")
         wanted = formats & {"html", "pdf", "xlsx"}

@@ -131,7 +131,20 @@ def build_context(audit, meta: dict, plots: bool = True, progress=None) -> dict:
                  ("trim alternatives file", meta.get("trims_file", "")),
                  ("flow scaling", scaled or "none"), ("atmospheric pressure [kPa]", _fmt(meta["p_atm_kpa"], 6)),
                  ("property backend", meta["property_backend"])]
+    headroom = []
+    if "flow_mult_full_travel" in valves:
+        order = np.argsort(np.fmin(valves["flow_mult_full_travel"].to_numpy(float),
+                                   valves["capacity_ceiling_mult"].to_numpy(float)), kind="stable")
+        headroom = [{"tag": v.tag, "service": v.service, "high": _fmt(v.flow_mult_high_travel),
+                     "full": _fmt(v.flow_mult_full_travel), "ceiling": _fmt(v.capacity_ceiling_mult),
+                     "dp": _fmt(v.dp_headroom_kpa, 4), "case": v.headroom_case}
+                    for v in valves.iloc[order].itertuples()]
+    trims = []
+    if "trim_alternative" in valves:
+        trims = [{"tag": v.tag, "codes": v.finding_codes.replace(";", ", "), "alternative": v.trim_alternative}
+                 for v in valves.itertuples() if v.trim_alternative]
     return {
+        "headroom": headroom, "trims": trims,
         "meta": meta, "css": (Path(__file__).parent / "templates" / "report.css").read_text(encoding="utf-8"),
         "counts": {"rows": audit.linelist.rows_total, "audited": len(valves), "rejected": len(audit.rejected),
                    "cases": len(cases)},

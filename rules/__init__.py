@@ -64,11 +64,14 @@ def apply_rules(cases: pd.DataFrame, overrides: dict | None = None) -> pd.DataFr
             cases[name] = values
         found.append(result.findings)
     allf = combine(*found)
-    codes = allf.sort_values(["case_row", "severity"], ascending=[True, False], kind="stable") \
-        .groupby("case_row")["code"].apply(lambda c: ";".join(dict.fromkeys(c)))
-    cases["findings"] = ""
-    if len(codes):
-        cases.loc[codes.index, "findings"] = codes.to_numpy()
+    ordered = allf.sort_values(["case_row", "severity"], ascending=[True, False], kind="stable")
+    per_case: dict[int, dict[str, None]] = {}
+    for row, code in zip(ordered["case_row"].tolist(), ordered["code"].tolist()):
+        per_case.setdefault(row, {})[code] = None
+    text = np.full(len(cases), "", dtype=object)
+    for row, codes in per_case.items():
+        text[row] = ";".join(codes)
+    cases["findings"] = text
     return allf
 
 
