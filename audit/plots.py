@@ -14,8 +14,10 @@ import numpy as np
 import matplotlib
 
 matplotlib.use("svg")
+# Text stays text (small files); ticks are few, as each label costs the PDF renderer a layout.
 matplotlib.rcParams.update({"svg.fonttype": "none", "svg.hashsalt": "valve-audit", "font.size": 8,
                             "axes.spines.top": False, "axes.spines.right": False})
+from matplotlib.ticker import MaxNLocator  # noqa: E402
 import matplotlib.pyplot as plt  # noqa: E402
 
 from .characteristic import cv_ratio_at_travel  # noqa: E402
@@ -26,7 +28,7 @@ _CASE_MARKERS = ["o", "s", "^", "D", "v", "P", "X", "*"]
 
 def _svg(fig) -> str:
     buf = io.StringIO()
-    fig.savefig(buf, format="svg", bbox_inches="tight")
+    fig.savefig(buf, format="svg")
     text = buf.getvalue()
     text = text[text.index("<svg"):]               # drop the XML prolog and doctype
     text = re.sub(r"<metadata>.*?</metadata>", "", text, flags=re.S)
@@ -39,6 +41,7 @@ def _svg(fig) -> str:
 def fleet_svg(ratios: np.ndarray, tags: list[str]) -> str:
     """Every valve's choke_ratio_max, ranked, with the 1.0 line where flow chokes."""
     fig, ax = plt.subplots(figsize=(7.0, 2.6))
+    fig.subplots_adjust(left=0.09, right=0.98, bottom=0.3 if len(ratios) <= 40 else 0.18, top=0.95)
     r = np.asarray(ratios, float)
     order = np.argsort(-np.nan_to_num(r, nan=-1.0))
     r = r[order]
@@ -57,64 +60,89 @@ def fleet_svg(ratios: np.ndarray, tags: list[str]) -> str:
 
 
 class ValvePlots:
-    """The two per-valve panels: flow against pressure drop, and the inherent characteristic."""
+    """The two per-valve panels: flow against pressure drop, and the inherent characteristic.
+
+    The figure and its artists are made once; each valve only sets new data and limits.  Case
+    markers carry their case name as a label beside the point, so no legend is redrawn.
+    """
 
     def __init__(self):
         self.fig, (self.ax1, self.ax2) = plt.subplots(1, 2, figsize=(7.2, 2.7))
-        self.fig.subplots_adjust(wspace=0.35)
+        self.fig.subplots_adjust(left=0.09, right=0.98, bottom=0.18, top=0.95, wspace=0.3)
+        self.curve, = self.ax1.plot([], [], color="black", linewidth=1.2)
+        self.choke = self.ax1.axvline(1.0, color="black", linestyle=":", linewidth=1.0)
+        self.choke_label = self.ax1.text(0, 0, " choked from here", fontsize=6, rotation=90, va="bottom")
+        self.inherent, = self.ax2.plot([], [], color="black", linewidth=1.2)
+        self.ax2.axvline(100.0, color="black", linestyle=":", linewidth=1.0)
+        self.marks = [[], []]
+        self.labels = [[], []]
+        for k, ax in enumerate((self.ax1, self.ax2)):
+            for j in range(len(_CASE_MARKERS)):
+                mark, = ax.plot([], [], _CASE_MARKERS[j], color="#333333", markersize=5, markerfacecolor="white")
+                self.marks[k].append(mark)
+                self.labels[k].append(ax.text(0, 0, "", fontsize=6, va="bottom"))
+            ax.xaxis.set_major_locator(MaxNLocator(5))
+            ax.yaxis.set_major_locator(MaxNLocator(4))
+        self.ax2.set_xlabel("travel [%]")
+        self.ax2.set_ylabel("Cv")
+        self.ax1.set_ylabel("flow [kg/h]")
+        self.title2 = self.ax2.text(0.02, 0.97, "", transform=self.ax2.transAxes, fontsize=6.5, va="top")
+        self.title1 = self.ax1.text(0.02, 0.97, "", transform=self.ax1.transAxes, fontsize=6.5, va="top")
 
     def close(self):
         plt.close(self.fig)
 
     def svg(self, valve_cases, worst) -> str:
         """valve_cases: the valve's rows of the case table; worst: its worst case's row."""
-        for ax in (self.ax1, self.ax2):
-            ax.clear()
-        self._flow_panel(valve_cases, worst)
-        self._characteristic_panel(valve_cases, worst)
+        sized = valve_cases[np.isfinite(valve_cases["cv"].to_numpy(float))]
+        self._flow_panel(sized, worst)
+        self._characteristic_panel(sized, worst)
         return _svg(self.fig)
 
+    def _place(self, k, xs, ys, names):
+        for j in range(len(_CASE_MARKERS)):
+            if j < len(xs):
+                self.marks[k][j].set_data([xs[j]], [ys[j]])
+                self.labels[k][j].set_position((xs[j], ys[j]))
+                self.labels[k][j].set_text(f"  {names[j]}")
+            else:
+                self.marks[k][j].set_data([], [])
+                self.labels[k][j].set_text("")
+
     def _flow_panel(self, cases, worst):
-        ax = self.ax1
         gas = worst["phase"] == "gas"
         p1 = worst["p_in"]
-        dp = np.linspace(0.0, 0.98 * p1, 120)[1:]
+        dp = np.linspace(0.0, 0.98 * p1, 100)[1:]
         kw = dict(is_gas=gas, p1=p1, p2=p1 - dp, t1=worst["t_in"], rho1=worst["rho"], pv=worst["pv"],
                   pc=worst["pc"], molar_mass=worst["molar_mass"], k=worst["k"], d=worst["valve_size"],
                   d1=max(worst["pipe_in_id"], worst["valve_size"]), d2=max(worst["pipe_out_id"], worst["valve_size"]),
                   fl=worst["fl"], xt=worst["xt"])
         with np.errstate(invalid="ignore"):
             w = flow_through(worst["kv"], **kw) * 3600.0
-        ax.plot(dp / 1e5, w, color="black", linewidth=1.2, label=f"at the opening of case {worst['case']}")
-        ax.axvline(worst["dp_choked"] / 1e5, color="black", linestyle=":", linewidth=1.0)
-        ax.text(worst["dp_choked"] / 1e5, ax.get_ylim()[1] * 0.05, " choked from here", fontsize=6, rotation=90,
-                va="bottom")
-        for j, (_, c) in enumerate(cases.iterrows()):
-            if np.isfinite(c.get("cv", np.nan)):
-                ax.plot([c["dp"] / 1e5], [c["w"] * 3600.0], _CASE_MARKERS[j % 8], color="#555555", markersize=5,
-                        markerfacecolor="white", label=f"case {c['case']}")
-        ax.set_xlabel(f"pressure drop [bar] (inlet {p1 / 1e5:.3g} bar(a))")
-        ax.set_ylabel("flow [kg/h]")
-        ax.set_xlim(left=0)
-        ax.set_ylim(bottom=0)
-        ax.legend(fontsize=6, frameon=False, loc="lower right")
+        self.curve.set_data(dp / 1e5, w)
+        x_choke = worst["dp_choked"] / 1e5
+        self.choke.set_xdata([x_choke, x_choke])
+        xs = cases["dp"].to_numpy(float) / 1e5
+        ys = cases["w"].to_numpy(float) * 3600.0
+        self._place(0, xs, ys, list(cases["case"]))
+        top = np.nanmax(np.r_[w, ys, 1e-9]) * 1.12
+        self.ax1.set_xlim(0, max(p1 / 1e5, np.nanmax(np.r_[xs, 0])) * 1.02)
+        self.ax1.set_ylim(0, top)
+        self.choke_label.set_position((x_choke, top * 0.05))
+        self.ax1.set_xlabel(f"pressure drop [bar] (inlet {p1 / 1e5:.3g} bar(a))")
+        self.title1.set_text(f"at the opening of case {worst['case']}")
 
     def _characteristic_panel(self, cases, worst):
-        ax = self.ax2
         h = np.linspace(0.0, 100.0, 101)
         char, rng, rated = worst["characteristic"], worst["rangeability"], worst["rated_cv"]
-        ax.plot(h, rated * cv_ratio_at_travel(h, char, rng), color="black", linewidth=1.2,
-                label=f"inherent: {char.replace('_', ' ')}")
-        for j, (_, c) in enumerate(cases.iterrows()):
-            if np.isfinite(c.get("cv", np.nan)):
-                ax.plot([c["travel_pct"]], [c["cv"]], _CASE_MARKERS[j % 8], color="#555555", markersize=5,
-                        markerfacecolor="white", label=f"case {c['case']}")
-        ax.axvline(100.0, color="black", linestyle=":", linewidth=1.0)
-        ax.set_xlabel("travel [%]")
-        ax.set_ylabel("Cv")
-        ax.set_xlim(0, max(105.0, np.nanmax(np.r_[cases["travel_pct"].to_numpy(float), 0]) + 5))
-        ax.set_ylim(bottom=0)
-        ax.legend(fontsize=6, frameon=False, loc="upper left")
+        curve = rated * cv_ratio_at_travel(h, char, rng)
+        self.inherent.set_data(h, curve)
+        xs = cases["travel_pct"].to_numpy(float)
+        ys = cases["cv"].to_numpy(float)
+        self._place(1, xs, ys, list(cases["case"]))
+        self.ax2.set_xlim(0, max(105.0, np.nanmax(np.r_[xs, 0]) + 5))
+        self.ax2.set_ylim(0, np.nanmax(np.r_[curve, ys]) * 1.1)
+        self.title2.set_text(f"inherent: {char.replace('_', ' ')}")
 
 
 __all__ = ["fleet_svg", "ValvePlots", "KV_TO_CV"]

@@ -272,6 +272,34 @@ def _mixture_gas_outlet(st: _State, h: float, p: float, t_guess: float):
     return (1.0, s.rhomass(), s.T(), c)
 
 
+def _pure_gas_outlet(st: _State, h: float, p: float, t_guess: float):
+    """(h, p) state of a pure-fluid gas by Newton steps on T with (p, T) updates.
+
+    Two (p, T) updates (about 20 us each) usually land within 1e-6 of h, against 70 us for
+    the direct (h, p) flash.  Returns None if the state leaves the gas side, so the caller
+    uses the direct flash, which handles a wet outlet.
+    """
+    s = st.state
+    t = t_guess
+    for _ in range(4):
+        s.update(CP.PT_INPUTS, p, t)
+        if s.phase() in (CP.iphase_liquid, CP.iphase_supercritical_liquid, CP.iphase_twophase):
+            return None
+        miss = s.hmass() - h
+        if abs(miss) < 1e-7 * abs(h) + 1e-3:
+            try:
+                c = s.speed_sound()
+            except ValueError:
+                c = float("nan")
+            return (1.0, s.rhomass(), s.T(), c)
+        t = t - miss / s.cpmass()
+        if not (st.state.Tmin() < t < st.state.Tmax()):
+            return None
+        if st.tc > t and p > _saturation_pressure(st, t):
+            return None  # below the dew point: the outlet is wet
+    return None
+
+
 def isenthalpic_outlet(fluids: list[Fluid | None], p_out: np.ndarray, h_in: np.ndarray,
                        backend: str = "HEOS", t_in: np.ndarray | None = None,
                        gas: np.ndarray | None = None) -> dict[str, np.ndarray]:
@@ -296,9 +324,10 @@ def isenthalpic_outlet(fluids: list[Fluid | None], p_out: np.ndarray, h_in: np.n
             continue
         st = _state_for(fluid, backend)
         key = ("hp", round(float(p_out[i]), 3), round(float(h_in[i]), 3))
-        if key not in st.cache and fluid.is_mixture and gas is not None and gas[i]:
+        if key not in st.cache and gas is not None and gas[i]:
+            shortcut = _mixture_gas_outlet if fluid.is_mixture else _pure_gas_outlet
             try:
-                found = _mixture_gas_outlet(st, float(h_in[i]), float(p_out[i]), float(t_in[i]))
+                found = shortcut(st, float(h_in[i]), float(p_out[i]), float(t_in[i]))
             except ValueError:
                 found = None
             if found is not None:

@@ -81,19 +81,23 @@ CASE_ROWS = [  # label, column, scale, offset, digits
 ]
 
 
-def _case_table(cases: pd.DataFrame) -> list[dict]:
-    rows = []
+def _case_table(cases: pd.DataFrame) -> str:
+    """The cases side by side as aligned plain text (fast to lay out, also in print)."""
+    names = [str(c) for c in cases["case"]]
+    width = max([12] + [len(n) + 2 for n in names])
+    lines = [f"{'quantity':<24}" + "".join(f"{n:>{width}}" for n in names)]
     for label, col, scale, offset, digits in CASE_ROWS:
-        if col not in cases:
+        if col not in cases or col == "case_error":
             continue
         values = cases[col].to_numpy()
         if scale is None:
             cells = [str(v) if v is not None else "" for v in values]
         else:
             cells = [_fmt(float(v) * scale + offset, digits) if v is not None else "" for v in values]
-        if any(c not in ("", "nan") for c in cells):
-            rows.append({"label": label, "cells": ["" if c == "nan" else c for c in cells]})
-    return rows
+        cells = ["" if c == "nan" else c for c in cells]
+        if any(cells):
+            lines.append(f"{label:<24}" + "".join(f"{c[:width - 1]:>{width}}" for c in cells))
+    return "\n".join(lines)
 
 
 def build_context(audit, meta: dict, plots: bool = True, progress=None) -> dict:
