@@ -152,8 +152,9 @@ def _read(st: _State, phase: str, pv: float) -> tuple:
         sound = s.speed_sound()
     except ValueError:
         sound = float("nan")
-    return (s.rhomass(), pv, st.pc, s.viscosity(), st.molar_mass, s.compressibility_factor(),
-            cp / cv, sound, s.hmass(), phase)
+    rho = s.rhomass()
+    z = s.p() * st.molar_mass / 1000.0 / (rho * R_GAS * s.T())  # Z = p M / (rho R T); not every backend has it
+    return (rho, pv, st.pc, s.viscosity(), st.molar_mass, z, cp / cv, sound, s.hmass(), phase)
 
 
 def _inlet_state(st: _State, p: float, t: float, phase_given: str) -> tuple:
@@ -206,7 +207,8 @@ def inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray,
     fluids: resolved fluid per case (None for custom fluids, skipped);
     p: inlet pressure [Pa abs]; t: inlet temperature [K]; phase_given:
     'liquid', 'gas' or '' per case; backend: CoolProp backend for pure
-    fluids ('HEOS', or a tabular one such as 'BICUBIC&HEOS').
+    fluids ('HEOS', or a tabular one such as 'BICUBIC&HEOS'; a state outside
+    a table's range falls back to HEOS).
     Returns arrays rho [kg/m3], pv [Pa], pc [Pa], mu [Pa s], molar_mass
     [kg/kmol], z, k (cp/cv), sound_speed [m/s], h [J/kg], phase, error.
     """
@@ -226,9 +228,14 @@ def inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray,
             except StateError as exc:
                 st.cache[key] = str(exc)
             except ValueError as exc:
-                st.cache[key] = (
-                    f"CoolProp could not evaluate {'&'.join(fluid.components)} at {p[i] / 1e5:.4g} bar(a) and "
-                    f"{t[i] - 273.15:.4g} degC ({str(exc)[:120]})")
+                if backend != "HEOS":  # outside a tabular backend's range: the full equation of state
+                    full = inlet_properties([fluid], p[i:i + 1], t[i:i + 1], phase_given[i:i + 1], "HEOS")
+                    st.cache[key] = full["error"][0] or (
+                        tuple(full[name][0] for name in INLET_FIELDS) + (full["phase"][0],))
+                else:
+                    st.cache[key] = (
+                        f"CoolProp could not evaluate {'&'.join(fluid.components)} at {p[i] / 1e5:.4g} bar(a) and "
+                        f"{t[i] - 273.15:.4g} degC ({str(exc)[:120]})")
         value = st.cache[key]
         if isinstance(value, str):
             out["error"][i] = value
@@ -345,7 +352,12 @@ def isenthalpic_outlet(fluids: list[Fluid | None], p_out: np.ndarray, h_in: np.n
                     c = float("nan")
                 st.cache[key] = (q, st.state.rhomass(), st.state.T(), c)
             except ValueError as exc:
-                st.cache[key] = f"CoolProp could not flash to the outlet pressure ({str(exc)[:120]})"
+                if backend != "HEOS":  # outside a tabular backend's range: the full equation of state
+                    full = isenthalpic_outlet([fluid], p_out[i:i + 1], h_in[i:i + 1], "HEOS",
+                                              None if t_in is None else t_in[i:i + 1], None if gas is None else gas[i:i + 1])
+                    st.cache[key] = full["error"][0] or tuple(full[k][0] for k in ("quality", "rho", "t", "sound_speed"))
+                else:
+                    st.cache[key] = f"CoolProp could not flash to the outlet pressure ({str(exc)[:120]})"
         value = st.cache[key]
         if isinstance(value, str):
             error[i] = value
