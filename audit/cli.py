@@ -10,7 +10,6 @@ Exit status of ``run`` (also in the README):
 """
 from __future__ import annotations
 
-import sys
 import tomllib
 import traceback
 from pathlib import Path

@@ -52,7 +52,6 @@ def case_table(ll: LineList, options: Options) -> pd.DataFrame:
                 "overridden", "sound_speed") + ("density", "vapour_pressure", "critical_pressure",
                                                  "viscosity", "molar_mass", "k", "z"):
         cases[col if col != "sound_speed" else "sound_speed_given"] = vals[col].to_numpy()[v]
-    scale = np.full(len(cases), 1.0)
     applies = np.isin(cases["case"], options.scale_cases) if options.scale_cases else np.ones(len(cases), bool)
     scale = np.where(applies, options.flow_scale, 1.0)
     if options.area_scale:
@@ -65,7 +64,6 @@ def case_table(ll: LineList, options: Options) -> pd.DataFrame:
 
 def add_properties(cases: pd.DataFrame, ll: LineList, options: Options) -> None:
     """Inlet properties: CoolProp, then the row's overrides, which win."""
-    n = len(cases)
     v = cases["valve"].to_numpy(int)
     ok = cases["case_error"].to_numpy(dtype=object) == ""
     fluid_objs = ll.valves["fluid_obj"].to_numpy(dtype=object)[v]

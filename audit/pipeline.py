@@ -4,7 +4,6 @@ from __future__ import annotations
 import datetime as _dt
 import hashlib
 import json
-import sys
 from dataclasses import dataclass
 from pathlib import Path
 

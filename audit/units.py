@@ -20,8 +20,7 @@ import numpy as np
 import pandas as pd
 import pint
 
-UREG = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
-UREG.define("US_gallon_alias = gallon = usgal")
+UREG = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)  # pint's "gallon" is the US gallon
 
 P_STD = 101325.0  # Pa, the contract's standard atmosphere
 

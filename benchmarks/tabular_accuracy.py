@@ -14,7 +14,6 @@ backend; the issue's bar for using one is 0.1 % on both.
 from __future__ import annotations
 
 import sys
-import time
 from pathlib import Path
 
 import numpy as np

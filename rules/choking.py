@@ -7,8 +7,6 @@ little room for more throughput.
 """
 from __future__ import annotations
 
-import numpy as np
-
 from .base import Rule, RuleResult, Severity, Threshold, bar, col, combine, findings, text, valid
 
 

@@ -1,11 +1,9 @@
 """Shared test helpers.  Hypothesis runs derandomised (a fixed seed) so CI is repeatable."""
 from __future__ import annotations
 
-import os
 from pathlib import Path
 
 import numpy as np
-import pytest
 from hypothesis import HealthCheck, settings
 
 settings.register_profile("repeatable", derandomize=True, deadline=None,

@@ -11,7 +11,7 @@ from openpyxl import Workbook
 
 from audit.engine import Options, compute
 from audit.loader import load_linelist
-from audit.outputs import neutralise, to_csv_text
+from audit.outputs import neutralise
 from audit.pipeline import run_files
 
 HEADER = ["tag", "service", "fluid", "phase", "valve_size", "rated_cv", "fl", "xt", "fd", "pipe_in_id",

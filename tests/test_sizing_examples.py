@@ -2,7 +2,6 @@
 `fluids` library (fluids.control_valve, size_control_valve_l / size_control_valve_g
 docstrings) reproduces them.  Kv to Cv: Cv = 1.156 Kv.
 """
-import numpy as np
 import pytest
 
 from audit.sizing import KV_TO_CV, size_valves

@@ -1,5 +1,4 @@
 """Unit handling: the same valve in SI, US customary and gauge units gives the same results."""
-import numpy as np
 import pytest
 
 from audit.engine import compute

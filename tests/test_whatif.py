@@ -2,7 +2,6 @@
 import csv
 import json
 
-import numpy as np
 import pytest
 from typer.testing import CliRunner
 
