@@ -178,3 +178,21 @@ def test_oversized_input_is_refused(tmp_path):
 def test_unknown_fluid_suggests_the_nearest_names(tmp_path):
     audit = compute(load_linelist(_write_csv(tmp_path / "h.csv", [row("F", fluid="Methan")])))
     assert "Methane" in audit.rejected["reason"].iloc[0]
+
+
+def test_xlsx_reader_without_calamine_gives_the_same_rows(tmp_path, monkeypatch):
+    # The openpyxl path (read-only, cached values, no external links) must read what calamine reads.
+    import builtins
+    path = _write_xlsx(tmp_path / "h.xlsx", [r for r, _ in ROWS])
+    fast = load_linelist(path)
+    real_import = builtins.__import__
+
+    def no_calamine(name, *args, **kwargs):
+        if name == "python_calamine":
+            raise ImportError("hidden for this test")
+        return real_import(name, *args, **kwargs)
+
+    monkeypatch.setattr(builtins, "__import__", no_calamine)
+    slow = load_linelist(path)
+    assert list(slow.valves["tag"]) == list(fast.valves["tag"])
+    assert list(slow.rejected["reason"]) == list(fast.rejected["reason"])
