@@ -123,23 +123,42 @@ def add_mass_flow(cases: pd.DataFrame) -> None:
                                                "for a liquid; give m3/h, l/min, gpm or a mass flow", err)
 
 
+# The case columns sizing.size_valves takes, in its argument order (after is_gas).
+SIZING_INPUTS = ("w", "p_in", "p_out", "t_in", "rho", "pv", "pc", "mu", "molar_mass", "k", "valve_size",
+                 "pipe_in_id", "pipe_out_id", "fl", "xt", "fd")
+
+
+def sizing_arrays(cases: pd.DataFrame, rows=slice(None)) -> dict[str, np.ndarray]:
+    """The sizing inputs of ``cases`` (optionally some rows) as SI arrays, plus ``gas``.
+
+    A pipe bore slightly under the valve size (heavy schedule, same nominal size) is no
+    reducer: the bores are floored at the valve size here, once, for every caller.
+    """
+    a = {k: cases[k].to_numpy(float)[rows] for k in SIZING_INPUTS}
+    for side in ("pipe_in_id", "pipe_out_id"):
+        a[side] = np.maximum(a[side], a["valve_size"])
+    a["gas"] = cases["phase"].to_numpy(dtype=object)[rows] == "gas"
+    return a
+
+
+def size_arrays(a: dict[str, np.ndarray], w: np.ndarray | None = None) -> dict[str, np.ndarray]:
+    """sizing.size_valves on ``sizing_arrays`` output, with the mass flow replaced by ``w`` if given."""
+    args = [a[k] for k in SIZING_INPUTS]
+    if w is not None:
+        args[0] = w
+    return sizing.size_valves(a["gas"], *args)
+
+
 def add_sizing(cases: pd.DataFrame) -> None:
     """IEC 60534-2-1 sizing of every auditable case at once."""
     ok = cases["case_error"].to_numpy(dtype=object) == ""
-    c = {k: cases[k].to_numpy(float) for k in ("w", "p_in", "p_out", "t_in", "rho", "pv", "pc", "mu", "molar_mass",
-                                                  "k", "valve_size", "pipe_in_id", "pipe_out_id", "fl", "xt", "fd")}
-    # A bore slightly under the valve size (heavy schedule, same nominal size) is no reducer.
-    for side in ("pipe_in_id", "pipe_out_id"):
-        c[side] = np.maximum(c[side], c["valve_size"])
-    gas = cases["phase"].to_numpy(dtype=object) == "gas"
+    c = sizing_arrays(cases)
     res = {name: np.full(len(cases), np.nan) for name in ("kv", "cv", "fp", "flp", "xtp", "fr", "rev", "ff",
                                                            "y", "x", "x_choked", "dp_choked", "choke_ratio")}
     res["choked"] = np.zeros(len(cases), dtype=bool)
     res["converged"] = np.zeros(len(cases), dtype=bool)
     if ok.any():
-        sized = sizing.size_valves(gas[ok], *(c[k][ok] for k in (
-            "w", "p_in", "p_out", "t_in", "rho", "pv", "pc", "mu", "molar_mass", "k", "valve_size", "pipe_in_id",
-            "pipe_out_id", "fl", "xt", "fd")))
+        sized = size_arrays(sizing_arrays(cases, ok))
         for name in res:
             res[name][ok] = sized[name]
     for name, arr in res.items():

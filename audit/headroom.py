@@ -2,8 +2,8 @@
 
 Per case, at that case's pressures and temperature:
 - the flow multiplier that brings the predicted travel to the travel rule's high limit, and to
-  full travel (the inverse of the sizing, solved by bisection on the multiplier for all cases
-  at once, so Reynolds and piping effects are those of the sizing itself);
+  full travel (the inverse of the sizing: the forward flow at the target C, checked with the
+  sizing itself and bisected where Reynolds effects move it);
 - the choked capacity ceiling: the most flow the valve passes fully open (rated Cv) however far
   the outlet pressure falls, at the case's inlet conditions, as a multiplier of the case's flow
   (the sizing solved for the flow at an outlet pressure of 1 % of the inlet, past any choke);
@@ -17,23 +17,14 @@ import pandas as pd
 
 from . import sizing
 from .characteristic import cv_ratio_at_travel
+from .engine import size_arrays, sizing_arrays
 
-SIZING_INPUTS = ("w", "p_in", "p_out", "t_in", "rho", "pv", "pc", "mu", "molar_mass", "k", "valve_size",
-                 "pipe_in_id", "pipe_out_id", "fl", "xt", "fd")
 _BISECTIONS = 40
 CEILING_OUTLET_SHARE = 0.01  # outlet at 1 % of the inlet pressure: past any choke point
 
 
-def _arrays(cases: pd.DataFrame, rows: np.ndarray) -> dict:
-    a = {k: cases[k].to_numpy(float)[rows] for k in SIZING_INPUTS}
-    for side in ("pipe_in_id", "pipe_out_id"):
-        a[side] = np.maximum(a[side], a["valve_size"])
-    a["gas"] = cases["phase"].to_numpy(dtype=object)[rows] == "gas"
-    return a
-
-
 def _cv_at(a: dict, multiplier: np.ndarray) -> np.ndarray:
-    r = sizing.size_valves(a["gas"], a["w"] * multiplier, *(a[k] for k in SIZING_INPUTS[1:]))
+    r = size_arrays(a, a["w"] * multiplier)
     return np.where(r["converged"], r["cv"], np.inf)
 
 
@@ -49,7 +40,7 @@ def flow_multiplier_to_cv(a: dict, cv_target: np.ndarray, p_out: np.ndarray | No
     if p_out is not None:
         a = dict(a, p_out=p_out)
     with np.errstate(invalid="ignore", divide="ignore"):
-        m = choked_capacity_at(a, cv_target, a["p_out"]) / a["w"]
+        m = flow_at(a, cv_target, a["p_out"]) / a["w"]
     m = np.where(np.isfinite(m) & (m > 0), m, 1.0)
     off = np.abs(_cv_at(a, m) / cv_target - 1.0) > 1e-3
     if off.any():
@@ -69,8 +60,8 @@ def _bisect_multiplier(a: dict, cv_target: np.ndarray) -> np.ndarray:
     return np.sqrt(lo * hi)
 
 
-def choked_capacity_at(a: dict, cv: np.ndarray, p_out: np.ndarray) -> np.ndarray:
-    """Mass flow [kg/s] through Cv ``cv`` at the case's inlet state and outlet pressure ``p_out``."""
+def flow_at(a: dict, cv: np.ndarray, p_out: np.ndarray) -> np.ndarray:
+    """Turbulent mass flow [kg/s] through Cv ``cv`` at the case's inlet state and outlet pressure ``p_out``."""
     kv = cv / sizing.KV_TO_CV
     return sizing.flow_through(kv, a["gas"], a["p_in"], p_out, a["t_in"], a["rho"], a["pv"], a["pc"],
                                a["molar_mass"], a["k"], a["valve_size"], a["pipe_in_id"], a["pipe_out_id"], a["fl"],
@@ -91,7 +82,7 @@ def add_headroom(cases: pd.DataFrame, valves: pd.DataFrame, high_travel_pct: flo
     cols = {name: np.full(n, np.nan) for name in ("flow_mult_high_travel", "flow_mult_full_travel",
                                                    "capacity_ceiling_mult", "dp_headroom_kpa")}
     if sized.size:
-        a = _arrays(cases, sized)
+        a = sizing_arrays(cases, sized)
         rated = cases["rated_cv"].to_numpy(float)[sized]
         phi = cv_ratio_at_travel(np.full(sized.size, high_travel_pct), cases["characteristic"].to_numpy()[sized],
                                  cases["rangeability"].to_numpy(float)[sized])

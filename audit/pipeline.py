@@ -114,9 +114,3 @@ class _Progress:
     def say(self, message: str) -> None:
         if self.console is not None:
             self.console.print(message, markup=False, highlight=False)
-
-    def track(self, items, description: str):
-        if self.console is None or not self.console.is_terminal:
-            return items
-        from rich.progress import track
-        return track(items, description=description, console=self.console)

@@ -21,7 +21,7 @@ from matplotlib.ticker import MaxNLocator  # noqa: E402
 import matplotlib.pyplot as plt  # noqa: E402
 
 from .characteristic import cv_ratio_at_travel  # noqa: E402
-from .sizing import KV_TO_CV, flow_through  # noqa: E402
+from .sizing import flow_through  # noqa: E402
 
 _CASE_MARKERS = ["o", "s", "^", "D", "v", "P", "X", "*"]
 
@@ -145,4 +145,4 @@ class ValvePlots:
         self.title2.set_text(f"inherent: {char.replace('_', ' ')}")
 
 
-__all__ = ["fleet_svg", "ValvePlots", "KV_TO_CV"]
+__all__ = ["fleet_svg", "ValvePlots"]

@@ -77,7 +77,7 @@ CASE_ROWS = [  # label, column, scale, offset, digits
     ("choke ratio", "choke_ratio", 1.0, 0, 3), ("sigma", "sigma", 1.0, 0, 3), ("xF", "xf", 1.0, 0, 3),
     ("xFz at p1", "xfzp1", 1.0, 0, 3), ("cavitation", "cavitation", None, 0, 0), ("vapour fraction out", "vapour_fraction_out", 1.0, 0, 3),
     ("outlet velocity [m/s]", "velocity_out_m_s", 1.0, 0, 3), ("outlet Mach", "mach_out", 1.0, 0, 2),
-    ("FP", "fp", 1.0, 0, 3), ("FLP", "flp", 1.0, 0, 3), ("FR", "fr", 1.0, 0, 3), ("note", "case_error", None, 0, 0),
+    ("FP", "fp", 1.0, 0, 3), ("FLP", "flp", 1.0, 0, 3), ("FR", "fr", 1.0, 0, 3),
 ]
 
 
@@ -87,7 +87,7 @@ def _case_table(cases: pd.DataFrame) -> str:
     width = max([12] + [len(n) + 2 for n in names])
     lines = [f"{'quantity':<24}" + "".join(f"{n:>{width}}" for n in names)]
     for label, col, scale, offset, digits in CASE_ROWS:
-        if col not in cases or col == "case_error":
+        if col not in cases:
             continue
         values = cases[col].to_numpy()
         if scale is None:
