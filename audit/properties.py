@@ -145,13 +145,18 @@ def _saturation_pressure(st: _State, t: float) -> float:
     return st.state.p()
 
 
+def _sound_speed(s: AbstractState) -> float:
+    """Speed of sound [m/s] of the current state; NaN where CoolProp has none (two-phase, some backends)."""
+    try:
+        return s.speed_sound()
+    except ValueError:
+        return float("nan")
+
+
 def _read(st: _State, phase: str, pv: float) -> tuple:
     s = st.state
     cp, cv = s.cpmass(), s.cvmass()
-    try:
-        sound = s.speed_sound()
-    except ValueError:
-        sound = float("nan")
+    sound = _sound_speed(s)
     rho = s.rhomass()
     z = s.p() * st.molar_mass / 1000.0 / (rho * R_GAS * s.T())  # Z = p M / (rho R T); not every backend has it
     return (rho, pv, st.pc, s.viscosity(), st.molar_mass, z, cp / cv, sound, s.hmass(), phase)
@@ -272,11 +277,7 @@ def _mixture_gas_outlet(st: _State, h: float, p: float, t_guess: float):
     q = s.Q()
     if 0.0 <= q <= 1.0 or abs(f1) > 1.0:
         return None
-    try:
-        c = s.speed_sound()
-    except ValueError:
-        c = float("nan")
-    return (1.0, s.rhomass(), s.T(), c)
+    return (1.0, s.rhomass(), s.T(), _sound_speed(s))
 
 
 def _pure_gas_outlet(st: _State, h: float, p: float, t_guess: float):
@@ -294,11 +295,7 @@ def _pure_gas_outlet(st: _State, h: float, p: float, t_guess: float):
             return None
         miss = s.hmass() - h
         if abs(miss) < 1e-7 * abs(h) + 1e-3:
-            try:
-                c = s.speed_sound()
-            except ValueError:
-                c = float("nan")
-            return (1.0, s.rhomass(), s.T(), c)
+            return (1.0, s.rhomass(), s.T(), _sound_speed(s))
         t = t - miss / s.cpmass()
         if not (st.state.Tmin() < t < st.state.Tmax()):
             return None
@@ -346,10 +343,7 @@ def isenthalpic_outlet(fluids: list[Fluid | None], p_out: np.ndarray, h_in: np.n
                 two_phase = 0.0 <= q <= 1.0
                 if not two_phase:
                     q = 1.0 if st.state.phase() in (CP.iphase_gas, CP.iphase_supercritical_gas) else 0.0
-                try:
-                    c = float("nan") if two_phase else st.state.speed_sound()
-                except ValueError:
-                    c = float("nan")
+                c = float("nan") if two_phase else _sound_speed(st.state)
                 st.cache[key] = (q, st.state.rhomass(), st.state.T(), c)
             except ValueError as exc:
                 if backend != "HEOS":  # outside a tabular backend's range: the full equation of state
