@@ -147,8 +147,9 @@ def rules_cmd(
             mark = "" if value == t.default else "   <- site file"
             typer.echo(f"    {t.name} = {value:g} {t.unit}   (default {t.default:g}; source: {t.source}) "
                        f"{t.meaning}{mark}")
-    typer.echo("A row's velocity_limit overrides the velocity limit for that valve. Noise prediction "
-               "(IEC 60534-8-3/8-4) is not in this version: noise_limit is read but no noise rule uses it yet.")
+    typer.echo("A row's velocity_limit overrides the velocity limit for that valve, and its noise_limit the "
+               "noise limit. Noise is predicted for liquids (IEC 60534-8-4); gas noise (IEC 60534-8-3) is not "
+               "in this version.")
 
 
 @app.command()

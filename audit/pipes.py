@@ -74,3 +74,20 @@ def pipe_dimensions(nps_inch: np.ndarray, schedules: np.ndarray) -> tuple[np.nda
             inside[i] = (od - 2.0 * t) / 1000.0
             wall[i] = t / 1000.0
     return inside, wall, msg
+
+
+def assumed_std_wall(inside_m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Standard-weight (STD) wall [m] of the nominal pipe whose STD bore is nearest each inside diameter.
+
+    For noise, where the line list gives no wall thickness: the transmission
+    loss needs one, and STD is the common default (common practice).  Returns
+    (wall [m], the nominal size [in] it was taken from); NaN for a NaN bore.
+    """
+    sizes = np.array(sorted(WALL_MM["STD"]))
+    bores = np.array([OUTSIDE_DIAMETER_MM[s] - 2 * WALL_MM["STD"][s] for s in sizes]) / 1000.0
+    walls = np.array([WALL_MM["STD"][s] for s in sizes]) / 1000.0
+    inside = np.asarray(inside_m, float)
+    pick = np.argmin(np.abs(np.log(np.where(inside > 0, inside, np.nan)[:, None] / bores[None, :])), axis=1) \
+        if inside.size else np.zeros(0, int)
+    good = np.isfinite(inside) & (inside > 0)
+    return np.where(good, walls[pick], np.nan), np.where(good, sizes[pick], np.nan)

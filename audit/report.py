@@ -38,6 +38,12 @@ METHODS = [
     "list gives none) corrected to the inlet pressure, and against (FLP/FP)^2.",
     "Flashing: outlet pressure at or below the vapour pressure; outlet vapour fraction and mixture density from an "
     "isenthalpic expansion (CoolProp). Outlet velocity: mass flow over outlet density and the valve's nominal bore.",
+    "Liquid noise: IEC 60534-8-4:2015, A-weighted level 1 m from the downstream pipe, turbulent and cavitating "
+    "parts with their own third-octave spectra, pipe-wall transmission loss band by band (steel pipe), acoustic "
+    "efficiency correction An = -4.6 (globe valves; a site file may change it). Where the line list gives no "
+    "downstream wall thickness, the standard-weight (STD) wall of the nearest nominal pipe is assumed and the case "
+    "says so. Flashing cases get no number (outside the method). Limit 85 dBA by default (common practice), or the "
+    "row's noise_limit. Predictions of this kind are commonly held to be within about 5 dB.",
     "Travel: from the inherent characteristic (linear, equal percentage with the rangeability, quick opening as "
     "square root), which departs from the installed characteristic.",
     "Fluid properties: CoolProp (Helmholtz equations of state; mixtures by its mixture model; mixture critical "
@@ -45,8 +51,9 @@ METHODS = [
     "reference state.",
 ]
 NOT_COVERED = [
-    "Noise prediction (IEC 60534-8-3 and 8-4) is not yet part of this version: noise_dba is blank and no noise "
-    "finding is made. A valve that is choked, cavitating or fast at its outlet is likely to be loud.",
+    "Gas and vapour noise (IEC 60534-8-3) is not yet part of this version: noise_dba is blank for gas cases and "
+    "noise_note says so. A gas valve that is choked or fast at its outlet (see the Mach findings) is likely to be "
+    "loud.",
     "Two-phase inlets, slurries, non-Newtonian fluids; actuator sizing, stroking speed, shut-off and leakage; body "
     "and trim material, pressure rating; installed (rather than inherent) characteristic; control loop behaviour.",
     "The valve manufacturer's own factors at partial travel (FL, xT and Fd change with opening; rated values are used).",

@@ -1,0 +1,120 @@
+"""Valve noise, A-weighted 1 m from the downstream pipe wall.
+
+Liquids: IEC 60534-8-4:2015 (hydrodynamic: turbulent and cavitating), see
+audit/noise_liquid.py.  Gases and vapours: IEC 60534-8-3 (aerodynamic), see
+audit/noise_gas.py where present.  Where a method does not apply or an input
+is missing the case carries no number and `noise_note` says why.
+
+The limit is 85 dBA by default, the usual occupational exposure action level
+(common practice); `noise_limit` on a row overrides it for that valve.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from audit import noise_liquid, pipes
+
+from .base import Rule, RuleResult, Severity, Threshold, col, combine, findings, text, valid
+
+
+def liquid_inputs_missing(cases, liquid):
+    """Per case, the first missing input the liquid method needs, in words ('' when none)."""
+    checks = [
+        ("sound_speed", "no speed of sound for this liquid (give column sound_speed)"),
+        ("xfz", "no xFz (given or estimated)"),
+    ]
+    note = np.full(len(cases), "", dtype=object)
+    for name, message in reversed(checks):
+        values = col(cases, name)
+        note = np.where(liquid & ~(np.isfinite(values) & (values > 0)), message, note)
+    return note
+
+
+def downstream_wall(cases):
+    """Wall thickness [m] of the downstream pipe, and a note where it had to be assumed."""
+    wall = col(cases, "pipe_out_wall")
+    std, nps = pipes.assumed_std_wall(col(cases, "pipe_out_id"))
+    assumed = ~(np.isfinite(wall) & (wall > 0)) & np.isfinite(std)
+    note = np.array([f"; wall assumed {w * 1000:.2f} mm (STD, NPS {n:g}): the line list gives none" if a else ""
+                     for a, w, n in zip(assumed, std, nps)], dtype=object)
+    return np.where(assumed, std, wall), note
+
+
+def liquid_levels(cases, an):
+    """noise_dba and noise_note for the liquid cases (IEC 60534-8-4)."""
+    ok = valid(cases)
+    liquid = ok & (text(cases, "phase") == "liquid")
+    flashing = cases["flashing"].to_numpy(bool)
+    missing = liquid_inputs_missing(cases, liquid & ~flashing)
+    run = liquid & ~flashing & (missing == "")
+    wall, wall_note = downstream_wall(cases)
+    level = np.full(len(cases), np.nan)
+    if run.any():
+        pick = lambda name: col(cases, name)[run]  # noqa: E731
+        res = noise_liquid.liquid_noise(
+            pick("w"), pick("p_in"), pick("p_out"), pick("pv"), pick("rho"), pick("sound_speed"), pick("kv"),
+            pick("valve_size"), pick("pipe_out_id"), wall[run], pick("flp") / pick("fp"), pick("fd"),
+            pick("xfz"), an=an)
+        level[run] = res["level_dba"]
+    note = np.where(liquid & flashing, "flashing at the outlet: IEC 60534-8-4 does not cover flashing liquids, "
+                                       "so no level is predicted", missing)
+    note = np.where(run & ~np.isfinite(level), "the liquid noise method gave no finite level for these inputs",
+                    note)
+    note = np.where(run & np.isfinite(level), "IEC 60534-8-4" + wall_note, note)
+    return level, note
+
+
+def gas_levels(cases):
+    """noise_dba and noise_note for the gas cases: not predicted in this version."""
+    gas = valid(cases) & (text(cases, "phase") == "gas")
+    note = np.where(gas, "gas noise (IEC 60534-8-3) is not predicted in this version", "")
+    return np.full(len(cases), np.nan), note
+
+
+def evaluate(cases, th) -> RuleResult:
+    liquid_level, liquid_note = liquid_levels(cases, th["an_liquid"])
+    gas_level, gas_note = gas_levels(cases)
+    level = np.where(np.isfinite(liquid_level), liquid_level, gas_level)
+    note = np.where(liquid_note != "", liquid_note, gas_note)
+    per_valve = col(cases, "noise_limit")
+    limit = np.where(np.isfinite(per_valve), per_valve, th["limit_dba"])
+    source = np.where(np.isfinite(per_valve), "line-list limit", "default limit")
+    known = np.isfinite(level)
+    severe = known & (level >= limit + th["urgent_over_db"])
+    loud = known & (level > limit) & ~severe
+    near = known & (level > limit - th["watch_margin_db"]) & (level <= limit)
+    name = text(cases, "case")
+    missing_data = valid(cases) & ~known & np.array([n.startswith("no ") for n in note], bool)
+
+    def said(i, what):
+        return (f"Predicted noise {level[i]:.1f} dBA at 1 m at case {name[i]} is {what} the {source[i]} of "
+                f"{limit[i]:.0f} dBA")
+
+    return RuleResult(
+        columns={"noise_dba": level, "noise_note": note, "noise_limit_dba": limit},
+        findings=combine(
+            findings(severe, "NOISE_SEVERE", Severity.URGENT, lambda i: said(i, "far above") + (
+                ": hearing protection and a noise fix are needed before people work near it.")),
+            findings(loud, "NOISE", Severity.PLAN, lambda i: said(i, "above") + (
+                ": plan a quieter trim, silencer or acoustic lagging; mark the area meanwhile.")),
+            findings(near, "NOISE_NEAR", Severity.WATCH, lambda i: said(i, "within "
+                     f"{th['watch_margin_db']:.0f} dB of") + "; the prediction is uncertain by about that much."),
+            findings(missing_data, "NOISE_NO_DATA", Severity.NOTE, lambda i: (
+                f"Noise not predicted at case {name[i]}: {note[i]}.")),
+        ))
+
+
+RULE = Rule(
+    code="noise", title="Noise", order=50, evaluate=evaluate,
+    thresholds=(
+        Threshold("limit_dba", 85.0, "dBA", "common practice",
+                  "sound pressure level limit 1 m from the pipe (occupational exposure action level)"),
+        Threshold("watch_margin_db", 5.0, "dB", "common practice",
+                  "a level this close below the limit is worth watching (the methods' uncertainty)"),
+        Threshold("urgent_over_db", 15.0, "dB", "common practice",
+                  "a level this far above the limit is urgent"),
+        Threshold("an_liquid", noise_liquid.AN_GLOBE, "", "IEC 60534-8-4",
+                  "valve correction of the liquid acoustic efficiency, An (-4.6: globe valves)"),
+    ),
+    description="A-weighted level 1 m from the downstream pipe: IEC 60534-8-4 for liquids",
+)

@@ -1,0 +1,66 @@
+"""The noise rule: levels, limits, and the cases where no number is given and why."""
+import numpy as np
+import pytest
+
+from helpers_linelist import audit_rows
+
+cv = pytest.importorskip("fluids.control_valve")
+
+HEADER = ("tag,fluid,phase,valve_size,rated_cv,fl,fd,xt,flow_max,p_in_max,p_out_max,t_in_max,"
+          "pipe_out_size,pipe_out_schedule,pipe_out_wall,noise_limit")
+# Cooling water, 4 in valve into 4 in schedule 40 pipe, cavitating at 6 bar drop.
+NOISY = "W,Water,,100,200,0.9,0.46,0.7,150 m3/h,10,4,25,4,40,,{limit}"
+OWN_LIMIT = NOISY.replace("W,", "Q,").replace(",{limit}", ",92")
+
+
+def test_level_matches_fluids_from_the_audited_case(tmp_path):
+    audit = audit_rows(tmp_path, HEADER, [NOISY.format(limit="")])
+    c = audit.cases.iloc[0]
+    assert c["noise_note"] == "IEC 60534-8-4"
+    ref = cv.control_valve_noise_l_2015(
+        m=c["w"], P1=c["p_in"], P2=c["p_out"], Psat=c["pv"], rho=c["rho"], c=c["sound_speed"], Kv=c["kv"],
+        d=0.1, Di=c["pipe_out_id"], FL=c["flp"] / c["fp"], Fd=c["fd"], t_pipe=c["pipe_out_wall"],
+        rho_pipe=7800.0, c_pipe=5000.0, rho_air=1.293, c_air=343.0, An=-4.6, xFz=c["xfz"])
+    assert c["noise_dba"] == pytest.approx(ref, abs=0.1)
+    # 4 in schedule 40: 102.26 mm bore, 6.02 mm wall (ASME B36.10M, from memory)
+    assert c["pipe_out_wall"] == pytest.approx(0.00602)
+
+
+def test_default_and_per_valve_limits(tmp_path):
+    audit = audit_rows(tmp_path, HEADER, [NOISY.format(limit=""), OWN_LIMIT])
+    cases = audit.cases.set_index("tag")
+    level = cases.loc["W", "noise_dba"]
+    assert 86 < level < 90          # so 85 (default) and 92 (the row's own limit) fall either side
+    codes_w = cases.loc["W", "findings"].split(";")
+    codes_q = cases.loc["Q", "findings"].split(";")
+    assert "NOISE" in codes_w and cases.loc["W", "noise_limit_dba"] == 85
+    assert "NOISE" not in codes_q and "NOISE_NEAR" in codes_q     # within 5 dB under 92 dBA
+    assert cases.loc["Q", "noise_limit_dba"] == 92
+
+
+def test_flashing_and_gas_cases_say_why_there_is_no_number(tmp_path):
+    audit = audit_rows(tmp_path, HEADER, [
+        "F,Water,,50,60,0.9,0.46,0.7,3600 kg/h,6,2,150,2,40,,",     # 150 C water to 2 bar(a): flashes
+        "G,Nitrogen,,50,60,0.9,0.46,0.7,3600 kg/h,10,6,20,2,40,,",
+    ])
+    cases = audit.cases.set_index("tag")
+    assert np.isnan(cases.loc["F", "noise_dba"]) and "flashing" in cases.loc["F", "noise_note"]
+    assert np.isnan(cases.loc["G", "noise_dba"]) and "not predicted" in cases.loc["G", "noise_note"]
+
+
+def test_missing_wall_is_assumed_standard_weight_and_said(tmp_path):
+    audit = audit_rows(tmp_path, HEADER, ["N,Water,,100,200,0.9,0.46,0.7,150 m3/h,10,4,25,,,,"])
+    c = audit.cases.iloc[0]
+    assert np.isfinite(c["noise_dba"])
+    assert "wall assumed 6.02 mm (STD, NPS 4)" in c["noise_note"]   # STD = schedule 40 at NPS 4
+
+
+def test_a_given_wall_wins_over_the_schedule(tmp_path):
+    rows = [NOISY.format(limit="").replace(",4,40,,", ",4,40,12,"), NOISY.format(limit="").replace("W,", "S,")]
+    cases = audit_rows(tmp_path, HEADER, rows).cases.set_index("tag")
+    assert cases.loc["W", "pipe_out_wall"] == pytest.approx(0.012)
+    # IEC 60534-8-4's pipe-wall loss goes as -10 lg ts; the 1 m distance term -10 lg((Do + 2)/Do)
+    # with Do = Di + 2 ts changes too (Di 102.26 mm).
+    do_thin, do_thick = 0.10226 + 2 * 0.00602, 0.10226 + 2 * 0.012
+    expected = 10 * np.log10(0.012 / 0.00602) - 10 * np.log10((do_thin + 2) / do_thin * do_thick / (do_thick + 2))
+    assert cases.loc["S", "noise_dba"] - cases.loc["W", "noise_dba"] == pytest.approx(expected, abs=0.02)
