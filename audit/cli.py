@@ -148,8 +148,7 @@ def rules_cmd(
             typer.echo(f"    {t.name} = {value:g} {t.unit}   (default {t.default:g}; source: {t.source}) "
                        f"{t.meaning}{mark}")
     typer.echo("A row's velocity_limit overrides the velocity limit for that valve, and its noise_limit the "
-               "noise limit. Noise is predicted for liquids (IEC 60534-8-4); gas noise (IEC 60534-8-3) is not "
-               "in this version.")
+               "noise limit. Noise: IEC 60534-8-3 for gases and vapours, IEC 60534-8-4 for liquids.")
 
 
 @app.command()

@@ -44,6 +44,11 @@ METHODS = [
     "downstream wall thickness, the standard-weight (STD) wall of the nearest nominal pipe is assumed and the case "
     "says so. Flashing cases get no number (outside the method). Limit 85 dBA by default (common practice), or the "
     "row's noise_limit. Predictions of this kind are commonly held to be within about 5 dB.",
+    "Gas noise: IEC 60534-8-3:2010, the same level for gases and vapours, all five flow regimes (acoustic efficiency "
+    "and peak frequency per regime), third-octave spectrum, pipe-wall transmission loss band by band, and the noise "
+    "of the outlet flow where the valve outlet runs faster than Mach 0.3 into a larger pipe (clause 7). An = -3.8 and "
+    "Stp = 0.2 (globe valve, cage trim) unless a site file sets others. Outlet state from the isenthalpic expansion "
+    "(CoolProp). No number where the valve outlet reaches Mach 1 or the outlet gas condenses (outside the method).",
     "Travel: from the inherent characteristic (linear, equal percentage with the rangeability, quick opening as "
     "square root), which departs from the installed characteristic.",
     "Fluid properties: CoolProp (Helmholtz equations of state; mixtures by its mixture model; mixture critical "
@@ -51,9 +56,9 @@ METHODS = [
     "reference state.",
 ]
 NOT_COVERED = [
-    "Gas and vapour noise (IEC 60534-8-3) is not yet part of this version: noise_dba is blank for gas cases and "
-    "noise_note says so. A gas valve that is choked or fast at its outlet (see the Mach findings) is likely to be "
-    "loud.",
+    "Noise of special low-noise trims (multi-hole cages, multistage trims: IEC 60534-8-3 clause 6 and their own "
+    "xFz estimates in 8-4): they are computed as standard trims, which overstates their noise. Noise radiated by the "
+    "valve body or upstream pipe.",
     "Two-phase inlets, slurries, non-Newtonian fluids; actuator sizing, stroking speed, shut-off and leakage; body "
     "and trim material, pressure rating; installed (rather than inherent) characteristic; control loop behaviour.",
     "The valve manufacturer's own factors at partial travel (FL, xT and Fd change with opening; rated values are used).",
@@ -84,6 +89,7 @@ CASE_ROWS = [  # label, column, scale, offset, digits
     ("choke ratio", "choke_ratio", 1.0, 0, 3), ("sigma", "sigma", 1.0, 0, 3), ("xF", "xf", 1.0, 0, 3),
     ("xFz at p1", "xfzp1", 1.0, 0, 3), ("cavitation", "cavitation", None, 0, 0), ("vapour fraction out", "vapour_fraction_out", 1.0, 0, 3),
     ("outlet velocity [m/s]", "velocity_out_m_s", 1.0, 0, 3), ("outlet Mach", "mach_out", 1.0, 0, 2),
+    ("noise at 1 m [dBA]", "noise_dba", 1.0, 0, 3), ("noise limit [dBA]", "noise_limit_dba", 1.0, 0, 3),
     ("FP", "fp", 1.0, 0, 3), ("FLP", "flp", 1.0, 0, 3), ("FR", "fr", 1.0, 0, 3),
 ]
 

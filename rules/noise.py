@@ -1,9 +1,10 @@
 """Valve noise, A-weighted 1 m from the downstream pipe wall.
 
 Liquids: IEC 60534-8-4:2015 (hydrodynamic: turbulent and cavitating), see
-audit/noise_liquid.py.  Gases and vapours: IEC 60534-8-3 (aerodynamic), see
-audit/noise_gas.py where present.  Where a method does not apply or an input
-is missing the case carries no number and `noise_note` says why.
+audit/noise_liquid.py.  Gases and vapours: IEC 60534-8-3:2010 (aerodynamic,
+five regimes, outlet-flow noise above outlet Mach 0.3), see
+audit/noise_gas.py.  Where a method does not apply or an input is missing
+the case carries no number and `noise_note` says why.
 
 The limit is 85 dBA by default, the usual occupational exposure action level
 (common practice); `noise_limit` on a row overrides it for that valve.
@@ -12,7 +13,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from audit import noise_liquid, pipes
+from audit import noise_gas, noise_liquid, pipes
 
 from .base import Rule, RuleResult, Severity, Threshold, col, combine, findings, text, valid
 
@@ -64,16 +65,48 @@ def liquid_levels(cases, an):
     return level, note
 
 
-def gas_levels(cases):
-    """noise_dba and noise_note for the gas cases: not predicted in this version."""
+REGIME_NAMES = {1: "I", 2: "II", 3: "III", 4: "IV", 5: "V"}
+
+
+def gas_levels(cases, an, stp):
+    """noise_dba and noise_note for the gas and vapour cases (IEC 60534-8-3)."""
     gas = valid(cases) & (text(cases, "phase") == "gas")
-    note = np.where(gas, "gas noise (IEC 60534-8-3) is not predicted in this version", "")
-    return np.full(len(cases), np.nan), note
+    rho2, c2 = col(cases, "rho_out"), col(cases, "sound_speed_out")
+    dry = np.isfinite(rho2) & np.isfinite(c2) & (c2 > 0)
+    has_k = np.isfinite(col(cases, "k")) & (col(cases, "k") > 1.0)
+    run = gas & dry & has_k
+    level = np.full(len(cases), np.nan)
+    regime = np.zeros(len(cases), int)
+    mach = np.full(len(cases), np.nan)
+    outlet = np.zeros(len(cases), bool)
+    wall, wall_note = downstream_wall(cases)
+    if run.any():
+        pick = lambda name: col(cases, name)[run]  # noqa: E731
+        res = noise_gas.gas_noise(
+            pick("w"), pick("p_in"), pick("p_out"), pick("rho"), pick("k"), pick("kv"), pick("flp") / pick("fp"),
+            pick("fd"), pick("valve_size"), pick("pipe_out_id"), wall[run], pick("rho_out"), pick("sound_speed_out"),
+            an=an, stp=stp)
+        level[run], regime[run], mach[run], outlet[run] = (res["level_dba"], res["regime"], res["mach_outlet"],
+                                                           res["outlet_flow"])
+    note = np.full(len(cases), "", dtype=object)
+    for i in np.flatnonzero(gas):
+        if not dry[i]:
+            note[i] = ("the outlet is not a dry gas (it condenses, or has no speed of sound): IEC 60534-8-3 covers "
+                       "single-phase dry gases only, so no level is predicted")
+        elif not has_k[i]:
+            note[i] = "no ratio of specific heats k for this gas (give column k)"
+        elif not np.isfinite(level[i]):
+            note[i] = (f"valve outlet Mach number {mach[i]:.2f} is 1 or more: beyond IEC 60534-8-3, so no level is "
+                       "predicted" if mach[i] >= 1 else "the gas noise method gave no finite level for these inputs")
+        else:
+            extra = (f"; outlet-flow noise added (valve outlet Mach {mach[i]:.2f} > 0.3)" if outlet[i] else "")
+            note[i] = f"IEC 60534-8-3, regime {REGIME_NAMES[int(regime[i])]}{extra}{wall_note[i]}"
+    return level, note
 
 
 def evaluate(cases, th) -> RuleResult:
     liquid_level, liquid_note = liquid_levels(cases, th["an_liquid"])
-    gas_level, gas_note = gas_levels(cases)
+    gas_level, gas_note = gas_levels(cases, th["an_gas"], th["stp_gas"])
     level = np.where(np.isfinite(liquid_level), liquid_level, gas_level)
     note = np.where(liquid_note != "", liquid_note, gas_note)
     per_valve = col(cases, "noise_limit")
@@ -115,6 +148,10 @@ RULE = Rule(
                   "a level this far above the limit is urgent"),
         Threshold("an_liquid", noise_liquid.AN_GLOBE, "", "IEC 60534-8-4",
                   "valve correction of the liquid acoustic efficiency, An (-4.6: globe valves)"),
+        Threshold("an_gas", noise_gas.AN_GLOBE, "", "IEC 60534-8-3",
+                  "valve correction of the gas acoustic efficiency, An (-3.8: globe valve, cage trim)"),
+        Threshold("stp_gas", noise_gas.STP_GLOBE, "", "IEC 60534-8-3",
+                  "peak Strouhal number of the gas trim noise, Stp (0.2: globe valve, cage trim)"),
     ),
-    description="A-weighted level 1 m from the downstream pipe: IEC 60534-8-4 for liquids",
+    description="A-weighted level 1 m from the downstream pipe: IEC 60534-8-3 (gas), IEC 60534-8-4 (liquid)",
 )
