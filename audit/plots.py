@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import io
 import re
+import xml.etree.ElementTree as ET
 
 import numpy as np
 
@@ -35,7 +36,43 @@ def _svg(fig) -> str:
     # Inline SVG in HTML needs no namespace declarations, and SVG 2 takes plain href: the
     # report then holds no URL at all, not even a namespace name.
     text = re.sub(r'\s+xmlns(:xlink)?="[^"]*"', "", text)
-    return text.replace("xlink:href=", "href=")
+    return _lighten(text.replace("xlink:href=", "href="))
+
+
+def _flatten_groups(node) -> None:
+    """Lift the children of groups that carry nothing but an id (matplotlib wraps every artist)."""
+    for child in list(node):
+        _flatten_groups(child)
+    kept = []
+    for child in list(node):
+        kept.extend(list(child) if child.tag == "g" and set(child.attrib) <= {"id"} else [child])
+    for child in list(node):
+        node.remove(child)
+    node.extend(kept)
+
+
+def _lighten(svg: str) -> str:
+    """The same drawing with fewer nodes and attributes: the PDF renderer's cost goes with them.
+
+    Drops id-only groups, ids nothing refers to and no-op rotations, and turns inline styles of
+    shapes into presentation attributes (text keeps its style, where font settings live).
+    """
+    root = ET.fromstring(svg)
+    used = set(re.findall(r'href="#([^"]+)"', svg)) | set(re.findall(r"url\(#([^)]+)\)", svg))
+    _flatten_groups(root)
+    for el in root.iter():
+        if el.attrib.get("transform", "").startswith("rotate(-0 "):
+            del el.attrib["transform"]
+        if el.tag != "svg" and el.attrib.get("id") not in used:
+            el.attrib.pop("id", None)
+        style = el.attrib.get("style")
+        if style and el.tag != "text":
+            del el.attrib["style"]
+            for part in style.split(";"):
+                if ":" in part:
+                    key, value = part.split(":", 1)
+                    el.set(key.strip(), value.strip())
+    return ET.tostring(root, encoding="unicode")
 
 
 def fleet_svg(ratios: np.ndarray, tags: list[str]) -> str:
