@@ -17,20 +17,22 @@ pressure limited at choked flow):
     eta_turb = 10^An Uvc / cL                          An = -4.6 for globe valves
     eta_cav  = 0.32 eta_turb sqrt((p1 - p2) / (dp_c x)) e^(5x) ((1 - x)/(1 - xF))^0.5
                (xF / x)^5 (xF - x)^1.5                 only where xF > x
-    Dj       = N14 Fd sqrt(C FL),   N14 = 4.9e-3 (C as Kv [m3/h])
-    fp_turb  = Stp Uvc / Dj,   Stp = 0.0352 FL^2 (Kv / d^2) Fd^0.75 x^-1.5 (p1 - pv)^-0.57
+    Dj       = N14 Fd sqrt(C FL)                       C as Cv, N14 = 4.6e-3 (Dj in m)
+    fp_turb  = Stp Uvc / Dj,   Stp = 0.036 FL^2 C Fd^0.75 / (N34 x^1.5 d^2) (p1 - pv)^-0.57,
+               C as Cv, N34 = 1.17, d [m], pressures [Pa]
     fp_cav   = 6 fp_turb ((1 - xF)/(1 - x))^2 (x / xF)^2.5
     spectra  dL_turb = -8 - 10 lg(0.25 (f/fp_turb)^3 + (f/fp_turb)^-1)
              dL_cav  = -9 - 10 lg(0.25 (f/fp_cav)^1.5 + (f/fp_cav)^-1.5)
     TL(f)    = -10 - 10 lg(cs rhos ts / (ca rhoa Di)) - 20 lg(fr/f + (f/fr)^1.5),  fr = cs / (pi Di)
 
-How the pieces were checked: the structure is the standard's as we know it;
-the Strouhal relation's exponents and its constant (SI units: Pa, m, Kv), and
-the form of the limited pressure in eta_cav, we could not read off the
-standard's text and settled by reproducing the standard's worked example
-(81.6 dBA, as the documentation of the `fluids` library reproduces it) and by
-probing `fluids.control_valve.control_valve_noise_l_2015` as a black box
-(tests/test_noise_liquid.py says so beside each check).
+How the pieces were checked: the structure, the constants 0.32, 6, 0.036 and
+the exponent 0.57 are the standard's as we recall them (from memory); the
+exponents of C, d and Fd in the Strouhal relation and the limited pressure
+drop inside eta_cav we could not recall and settled by probing
+`fluids.control_valve.control_valve_noise_l_2015` as a black box.  With C in
+Cv and the Cv forms of N14 and N34 the recalled constant 0.036 then
+reproduces that reference to 0.003 dB and the standard's worked example
+(81.6 dBA, as the documentation of `fluids` reproduces it).
 """
 from __future__ import annotations
 
@@ -38,9 +40,12 @@ import numpy as np
 
 from . import acoustics as ac
 
-N14_KV = 4.9e-3
+from .sizing import KV_TO_CV
+
+N14_CV = 4.6e-3   # jet diameter constant with C as Cv, Dj in m (IEC 60534-8-3/8-4 table of N)
+N34_CV = 1.17
 AN_GLOBE = -4.6
-STROUHAL_CONSTANT = 0.0352
+STROUHAL_CONSTANT = 0.036
 
 
 def vena_contracta_velocity(p1, p2, pv, rho, fl):
@@ -50,8 +55,8 @@ def vena_contracta_velocity(p1, p2, pv, rho, fl):
 
 
 def jet_diameter(kv, fd, fl):
-    """Dj [m] = N14 Fd sqrt(Kv FL), IEC 60534-8-3/8-4; kv [m3/h]."""
-    return N14_KV * fd * np.sqrt(kv * fl)
+    """Dj [m] = N14 Fd sqrt(C FL) with C as Cv, IEC 60534-8-3/8-4; kv [m3/h]."""
+    return N14_CV * fd * np.sqrt(kv * KV_TO_CV * fl)
 
 
 def cavitation_efficiency_ratio(xf, x, p1, p2, dp_c):
@@ -65,7 +70,8 @@ def cavitation_efficiency_ratio(xf, x, p1, p2, dp_c):
 
 def peak_frequencies(uvc, dj, kv, d, fd, fl, x, xf, p1, pv):
     """(fp_turb, fp_cav) [Hz]. IEC 60534-8-4; d valve outlet (nominal) diameter [m]."""
-    stp = STROUHAL_CONSTANT * fl ** 2 * (kv / d ** 2) * fd ** 0.75 * x ** -1.5 * (p1 - pv) ** -0.57
+    cv = kv * KV_TO_CV
+    stp = STROUHAL_CONSTANT * fl ** 2 * cv * fd ** 0.75 / (N34_CV * x ** 1.5 * d ** 2) * (p1 - pv) ** -0.57
     fp_turb = stp * uvc / dj
     fp_cav = 6.0 * fp_turb * ((1.0 - xf) / (1.0 - x)) ** 2 * (x / xf) ** 2.5
     return fp_turb, fp_cav

@@ -20,8 +20,11 @@ cv = pytest.importorskip("fluids.control_valve")
 R = 8.314462618
 CV_TO_KV = 1 / 1.156
 # Annex A common data: p1 10 bar, 5.3 kg/m3, 450 K, k 1.22, M 19.8 kg/kmol, FLP/FP = 0.792/0.984,
-# Fd 0.30, 8 mm steel wall of 8000 kg/m3; An -3.8, Stp 0.2.
+# Fd 0.296, 8 mm steel wall of 8000 kg/m3; An -3.8, Stp 0.2.
 FL_A = 0.792 / 0.984
+# Fd of the annex's cage from its own geometry (Equations 8a to 8c: six passages of 0.00137 m2 with
+# a 0.181 m perimeter): 0.296, printed rounded as 0.30.  Its printed peak frequency needs 0.296.
+FD_A = 4 * 0.00137 / 0.181 / np.sqrt(4 * 6 * 0.00137 / np.pi)
 C2_A = np.sqrt(1.22 * R * 450 / 0.0198)
 # Table A.1: mass flow, p2, C (Cv), valve outlet d, pipe Di; printed regime, Wa [W], Lpi [dB], LpAe [dBA]
 TABLE_A1 = {
@@ -40,7 +43,7 @@ TL_A2 = [-94.1, -92.0, -90.0, -88.1, -86.1, -84.1, -82.2, -80.2, -78.1, -76.2, -
 
 def annex(i):
     m, p2, c, d, di, *_ = TABLE_A1[i]
-    return gas_noise(m, 1e6, p2, 5.3, 1.22, c * CV_TO_KV, FL_A, 0.30, d, di, 0.008, 5.3 * p2 / 1e6, C2_A,
+    return gas_noise(m, 1e6, p2, 5.3, 1.22, c * CV_TO_KV, FL_A, FD_A, d, di, 0.008, 5.3 * p2 / 1e6, C2_A,
                      rho_s=8000.0)
 
 
@@ -55,11 +58,17 @@ def test_annex_a_examples(i):
     assert r["outlet_flow"][0] == (i == 6)   # only example 6 has outlet Mach above 0.3 into a larger pipe
 
 
+def test_annex_a_example_1_peak_frequency():
+    # Printed 7778 Hz (regime I: Stp Uvc / Dj with Dj = N14 Fd sqrt(C FL), C as Cv, N14 = 4.6e-3).
+    assert FD_A == pytest.approx(0.296, abs=5e-4)
+    assert annex(1)["fp"][0] == pytest.approx(7778, rel=0.002)
+
+
 def test_annex_a_sound_power_per_regime():
     # Wa of Equation (11) in each regime, printed to 0.1 W; the regime formulas differ in every column.
     from audit.noise_gas import source_power
     for i, (m, p2, c, *_rest) in TABLE_A1.items():
-        wa, _, _ = source_power(np.array([m]), 1e6, p2, 5.3, 1.22, c * CV_TO_KV, FL_A, 0.30, -3.8, 0.2)
+        wa, _, _ = source_power(np.array([m]), 1e6, p2, 5.3, 1.22, c * CV_TO_KV, FL_A, FD_A, -3.8, 0.2)
         assert wa[0] == pytest.approx(TABLE_A1[i][6], rel=0.005)
 
 
@@ -71,10 +80,10 @@ def test_annex_a_example_6_outlet_flow_chain():
     assert round(annex(6)["level_dba"][0]) == 94   # printed: the trim and the outlet flow together
     # The trim alone, against fluids (which adds no outlet-flow noise): 93.37 dBA there.
     m, p2, c, d, di, *_ = TABLE_A1[6]
-    trim = gas_noise(m, 1e6, p2, 5.3, 1.22, c * CV_TO_KV, FL_A, 0.30, d, di, 0.008, 5.3 * p2 / 1e6, C2_A,
+    trim = gas_noise(m, 1e6, p2, 5.3, 1.22, c * CV_TO_KV, FL_A, FD_A, d, di, 0.008, 5.3 * p2 / 1e6, C2_A,
                      rho_s=8000.0, outlet_flow=False)["level_dba"][0]
     ref = cv.control_valve_noise_g_2011(m=m, P1=1e6, P2=p2, T1=450, rho=5.3, gamma=1.22, MW=19.8, Kv=c * CV_TO_KV,
-                                        d=d, Di=di, FL=FL_A, Fd=0.30, t_pipe=0.008, rho_pipe=8000.0, c_pipe=5000.0,
+                                        d=d, Di=di, FL=FL_A, Fd=FD_A, t_pipe=0.008, rho_pipe=8000.0, c_pipe=5000.0,
                                         rho_air=1.293, c_air=343.0, An=-3.8, Stp=0.2)
     assert trim == pytest.approx(ref, abs=0.1)
     assert annex(6)["level_dba"][0] > trim + 0.3   # the outlet flow adds a little over half a decibel
