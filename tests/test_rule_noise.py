@@ -81,3 +81,21 @@ def test_a_given_wall_wins_over_the_schedule(tmp_path):
     do_thin, do_thick = 0.10226 + 2 * 0.00602, 0.10226 + 2 * 0.012
     expected = 10 * np.log10(0.012 / 0.00602) - 10 * np.log10((do_thin + 2) / do_thin * do_thick / (do_thick + 2))
     assert cases.loc["S", "noise_dba"] - cases.loc["W", "noise_dba"] == pytest.approx(expected, abs=0.02)
+
+
+def test_every_sized_case_of_the_sample_has_a_level_or_says_why():
+    from pathlib import Path
+
+    from audit.engine import Options, compute
+    from audit.loader import load_linelist
+    sample = Path(__file__).resolve().parent.parent / "sample_linelist" / "fenmoor_unit.csv"
+    cases = compute(load_linelist(sample), Options()).cases
+    sized = (cases["case_error"] == "") & cases["converged"].astype(bool)
+    level = cases["noise_dba"].astype(float)
+    note = cases["noise_note"].astype(str)
+    with_level = sized & np.isfinite(level)
+    assert with_level.sum() > 0.7 * sized.sum()
+    assert note[with_level].str.startswith("IEC 60534-8-").all()             # method named with the number
+    without = sized & ~np.isfinite(level)
+    assert (note[without] != "").all() and not note[without].str.startswith("IEC").any()  # and why not
+    assert ((cases["phase"] == "gas") & with_level).any() and ((cases["phase"] == "liquid") & with_level).any()
