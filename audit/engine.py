@@ -48,7 +48,7 @@ def case_table(ll: LineList, options: Options) -> pd.DataFrame:
     vals = ll.valves
     for col in ("tag", "area", "service", "valve_size", "rated_cv", "characteristic", "rangeability",
                 "fl", "xt", "fd", "xfz_given", "pipe_in_id", "pipe_out_id", "pipe_out_wall",
-                "noise_limit", "velocity_limit", "custom", "phase_given", "typical_factors",
+                "noise_limit", "noise_an", "noise_stp", "velocity_limit", "custom", "phase_given", "typical_factors",
                 "overridden", "sound_speed") + ("density", "vapour_pressure", "critical_pressure",
                                                  "viscosity", "molar_mass", "k", "z"):
         cases[col if col != "sound_speed" else "sound_speed_given"] = vals[col].to_numpy()[v]

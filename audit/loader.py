@@ -59,6 +59,8 @@ NUMERIC = {  # column: (kind, default unit)
     "pipe_out_wall": ("length", "mm"),
     "noise_limit": ("dba", "dBA"),
     "velocity_limit": ("velocity", "m/s"),
+    "noise_an": ("dimensionless", ""),
+    "noise_stp": ("dimensionless", ""),
 }
 TEXT = ("tag", "area", "service", "fluid", "phase", "characteristic", "valve_style",
         "pipe_in_schedule", "pipe_out_schedule")
@@ -229,6 +231,12 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     _piping(text, num, reasons, valves)
     valves["noise_limit"] = num["noise_limit"]
     valves["velocity_limit"] = num["velocity_limit"]
+    # The valve maker's acoustic data for the noise methods (IEC 60534-8-3/8-4), where known.
+    _range(num, "noise_an", reasons, low=-7.0, high=-1.0,
+           what="an acoustic efficiency correction An between -7 and -1")
+    _range(num, "noise_stp", reasons, low=0.0, high=2.0, what="a peak Strouhal number between 0 and 2")
+    valves["noise_an"] = num["noise_an"]
+    valves["noise_stp"] = num["noise_stp"]
     for col in OVERRIDES + ("sound_speed",):
         valves[col] = num[col]
     valves["overridden"] = [", ".join(c for c in OVERRIDES if np.isfinite(num[c][i])

@@ -31,6 +31,12 @@ def liquid_inputs_missing(cases, liquid):
     return note
 
 
+def per_valve(cases, name, default):
+    """A row's own value of a noise parameter where the line list gives one, else the default."""
+    given = col(cases, name) if name in cases else np.full(len(cases), np.nan)
+    return np.where(np.isfinite(given), given, default)
+
+
 def downstream_wall(cases):
     """Wall thickness [m] of the downstream pipe, and a note where it had to be assumed."""
     wall = col(cases, "pipe_out_wall")
@@ -55,7 +61,7 @@ def liquid_levels(cases, an):
         res = noise_liquid.liquid_noise(
             pick("w"), pick("p_in"), pick("p_out"), pick("pv"), pick("rho"), pick("sound_speed"), pick("kv"),
             pick("valve_size"), pick("pipe_out_id"), wall[run], pick("flp") / pick("fp"), pick("fd"),
-            pick("xfz"), an=an)
+            pick("xfz"), an=per_valve(cases, "noise_an", an)[run])
         level[run] = res["level_dba"]
     note = np.where(liquid & flashing, "flashing at the outlet: IEC 60534-8-4 does not cover flashing liquids, "
                                        "so no level is predicted", missing)
@@ -85,7 +91,7 @@ def gas_levels(cases, an, stp):
         res = noise_gas.gas_noise(
             pick("w"), pick("p_in"), pick("p_out"), pick("rho"), pick("k"), pick("kv"), pick("flp") / pick("fp"),
             pick("fd"), pick("valve_size"), pick("pipe_out_id"), wall[run], pick("rho_out"), pick("sound_speed_out"),
-            an=an, stp=stp)
+            an=per_valve(cases, "noise_an", an)[run], stp=per_valve(cases, "noise_stp", stp)[run])
         level[run], regime[run], mach[run], outlet[run] = (res["level_dba"], res["regime"], res["mach_outlet"],
                                                            res["outlet_flow"])
     note = np.full(len(cases), "", dtype=object)

@@ -99,3 +99,17 @@ def test_every_sized_case_of_the_sample_has_a_level_or_says_why():
     without = sized & ~np.isfinite(level)
     assert (note[without] != "").all() and not note[without].str.startswith("IEC").any()  # and why not
     assert ((cases["phase"] == "gas") & with_level).any() and ((cases["phase"] == "liquid") & with_level).any()
+
+
+def test_a_rows_own_acoustic_data_wins(tmp_path):
+    # The acoustic efficiency goes as 10^An in both standards: one unit of An is exactly 10 dB.
+    header = HEADER + ",noise_an,noise_stp"
+    gas = "{tag},Nitrogen,,50,60,0.9,0.46,0.7,3600 kg/h,10,7,20,2,40,,,{an},"
+    rows = [NOISY.format(limit="") + ",,", NOISY.format(limit="").replace("W,", "A,") + ",-3.6,",
+            gas.format(tag="G", an=""), gas.format(tag="H", an=-2.8),
+            "B,Water,,100,200,0.9,0.46,0.7,150 m3/h,10,4,25,4,40,,,0.5,"]
+    audit = audit_rows(tmp_path, header, rows)
+    cases = audit.cases.set_index("tag")
+    assert cases.loc["A", "noise_dba"] - cases.loc["W", "noise_dba"] == pytest.approx(10.0, abs=1e-6)
+    assert cases.loc["H", "noise_dba"] - cases.loc["G", "noise_dba"] == pytest.approx(10.0, abs=1e-6)
+    assert "noise_an" in audit.linelist.rejected.iloc[0]["reason"]      # +0.5 is no efficiency correction
