@@ -78,7 +78,8 @@ def gas_levels(cases, an, stp):
     """noise_dba and noise_note for the gas and vapour cases (IEC 60534-8-3)."""
     gas = valid(cases) & (text(cases, "phase") == "gas")
     rho2, c2 = col(cases, "rho_out"), col(cases, "sound_speed_out")
-    dry = np.isfinite(rho2) & np.isfinite(c2) & (c2 > 0)
+    wet = col(cases, "quality_out") < 1.0   # condensing across the valve: not a dry gas
+    dry = np.isfinite(rho2) & np.isfinite(c2) & (c2 > 0) & ~wet
     has_k = np.isfinite(col(cases, "k")) & (col(cases, "k") > 1.0)
     run = gas & dry & has_k
     level = np.full(len(cases), np.nan)

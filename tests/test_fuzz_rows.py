@@ -98,6 +98,9 @@ def test_random_rows_never_escape_and_are_all_accounted_for(tmp_path_factory, ro
         expected = EXPECTED["any"] | EXPECTED.get(rec["phase"], set())
         if "CONDENSING" in rec["findings"]:  # wet outlet: no single speed of sound, said by the finding
             expected = expected - {"mach_out"}
+        # noise: a level naming its method, or a note saying why there is none
+        assert rec["noise_note"] != "" and (np.isfinite(rec["noise_dba"]) == rec["noise_note"].startswith("IEC")), (
+            f"{rec['tag']} {rec['case']}: noise {rec['noise_dba']} with note {rec['noise_note']!r}")
         for c in expected:
             assert np.isfinite(rec[c]), (f"{rec['tag']} {rec['case']} ({rec['phase']}, p_in {rec['p_in_kpa']} kPa, "
                                          f"p_out {rec['p_out_kpa']} kPa, t {rec['t_in_c']} C): {c} is {rec[c]} "

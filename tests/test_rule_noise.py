@@ -113,3 +113,12 @@ def test_a_rows_own_acoustic_data_wins(tmp_path):
     assert cases.loc["A", "noise_dba"] - cases.loc["W", "noise_dba"] == pytest.approx(10.0, abs=1e-6)
     assert cases.loc["H", "noise_dba"] - cases.loc["G", "noise_dba"] == pytest.approx(10.0, abs=1e-6)
     assert "noise_an" in audit.linelist.rejected.iloc[0]["reason"]      # +0.5 is no efficiency correction
+
+
+def test_condensing_gas_gets_a_note_not_a_number(tmp_path):
+    # CO2 vapour 1 K above saturation at 60 bar(a), throttled to 30 bar(a): about 10 % condenses
+    # (CoolProp, isenthalpic); IEC 60534-8-3 covers dry gases only.
+    audit = audit_rows(tmp_path, HEADER, ["C,CarbonDioxide,gas,50,60,0.9,0.46,0.7,3600 kg/h,60,30,23.0,2,80,,"])
+    c = audit.cases.iloc[0]
+    assert "CONDENSING" in c["findings"]
+    assert np.isnan(c["noise_dba"]) and "dry" in c["noise_note"]
