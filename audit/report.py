@@ -43,7 +43,7 @@ METHODS = [
     "efficiency correction An = -4.6 (globe valves; a site file may change it). Where the line list gives no "
     "downstream wall thickness, the standard-weight (STD) wall of the nearest nominal pipe is assumed and the case "
     "says so. Flashing cases get no number (outside the method). Limit 85 dBA by default (common practice), or the "
-    "row's noise_limit. Predictions of this kind are commonly held to be within about 5 dB.",
+    "row's noise_limit. Predictions of this kind are commonly held to be within about 5 dB (common practice).",
     "Gas noise: IEC 60534-8-3:2010, the same level for gases and vapours, all five flow regimes (acoustic efficiency "
     "and peak frequency per regime), third-octave spectrum, pipe-wall transmission loss band by band, and the noise "
     "of the outlet flow where the valve outlet runs faster than Mach 0.3 into a larger pipe (clause 7). An = -3.8 and "
