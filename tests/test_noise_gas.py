@@ -2,8 +2,8 @@
 
 Annex A values: IEC 60534-8-3:2010, Annex A, Tables A.1 (examples 1 to 6, one valve and cage in five
 flow regimes) and A.2 (the DN 200 pipe's transmission loss in all 33 bands), as printed in the
-standard and transcribed in the conformance tests of the open-source `phonometry` project (that
-transcription notes the annex computed with FP = 0.984 where it prints 0.98; we follow it).
+standard and copied into the conformance tests of the open-source `phonometry` project (that
+copy notes the annex computed with FP = 0.984 where it prints 0.98; we follow it).
 `fluids.control_valve.control_valve_noise_g_2011` is used only as a black box.  Two terms (the
 sqrt(f) wall term of the transmission loss and the valve-size term below 0.15 m) were recovered by
 probing that black box; the Annex A checks below pin both independently: the 33-band loss needs the
