@@ -136,9 +136,9 @@ def evaluate(cases, th) -> RuleResult:
             findings(severe, "NOISE_SEVERE", Severity.URGENT, lambda i: said(i, "far above") + (
                 ": hearing protection and a noise fix are needed before people work near it.")),
             findings(loud, "NOISE", Severity.PLAN, lambda i: said(i, "above") + (
-                ": plan a quieter trim, silencer or acoustic lagging; mark the area meanwhile.")),
+                ": plan a quieter trim, silencer or acoustic lagging, and mark the area meanwhile.")),
             findings(near, "NOISE_NEAR", Severity.WATCH, lambda i: said(i, "within "
-                     f"{th['watch_margin_db']:.0f} dB of") + "; the prediction is uncertain by about that much."),
+                     f"{th['watch_margin_db']:.0f} dB of") + ", about the uncertainty of the prediction."),
             findings(missing_data, "NOISE_NO_DATA", Severity.NOTE, lambda i: (
                 f"Noise not predicted at case {name[i]}: {note[i]}.")),
         ))
