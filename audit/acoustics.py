@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from .sizing import KV_TO_CV
+
 # Nominal third-octave centre frequencies [Hz], 12.5 Hz to 20 kHz (IEC 61260-1).
 BANDS_HZ = np.array([12.5, 16, 20, 25, 31.5, 40, 50, 63, 80, 100, 125, 160, 200, 250, 315, 400, 500,
                      630, 800, 1000, 1250, 1600, 2000, 2500, 3150, 4000, 5000, 6300, 8000, 10000,
@@ -19,8 +21,7 @@ A_WEIGHT_DB = np.array([-63.4, -56.7, -50.5, -44.7, -39.4, -34.6, -30.2, -26.2, 
                         -13.4, -10.9, -8.6, -6.6, -4.8, -3.2, -1.9, -0.8, 0.0, 0.6, 1.0, 1.2, 1.3, 1.2,
                         1.0, 0.5, -0.1, -1.1, -2.5, -4.3, -6.6, -9.3])
 
-P_REF = 2e-5  # Pa, reference sound pressure
-# 4 / (pi p_ref^2), rounded as the standards write it: Lpi = 10 lg(3.2e9 W rho c / Di^2).
+# 4 / (pi p_ref^2) with p_ref = 20 uPa, rounded as the standards write it: Lpi = 10 lg(3.2e9 W rho c / Di^2).
 INTERNAL_LEVEL_CONSTANT = 3.2e9
 
 STEEL_DENSITY = 7800.0      # kg/m3
@@ -28,11 +29,20 @@ STEEL_SOUND_SPEED = 5000.0  # m/s, longitudinal waves in the pipe wall
 AIR_DENSITY = 1.293         # kg/m3, outside the pipe (as the standards' examples take it)
 AIR_SOUND_SPEED = 343.0     # m/s
 AIR_PRESSURE = 101325.0     # Pa
+N14_CV = 4.6e-3             # jet diameter constant with C as Cv, Dj in m (the standards' table of N)
 
 
 def column(x) -> np.ndarray:
     """A per-case array as a (cases, 1) column to broadcast against the bands."""
     return np.asarray(x, float).reshape(-1, 1)
+
+
+def jet_diameter(kv, fd, fl):
+    """Jet diameter Dj [m] = N14 Fd sqrt(C FL), C as Cv, IEC 60534-8-3 and 8-4; kv [m3/h].
+
+    fd: valve style modifier; fl: FL, or FLP/FP with fittings.
+    """
+    return N14_CV * fd * np.sqrt(kv * KV_TO_CV * fl)
 
 
 def internal_level(power_w, rho, c, di):

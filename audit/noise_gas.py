@@ -44,7 +44,6 @@ import numpy as np
 
 from . import acoustics as ac
 
-from .noise_liquid import jet_diameter
 
 AN_GLOBE = -3.8          # acoustic efficiency correction of a globe valve with cage trim
 STP_GLOBE = 0.2          # peak Strouhal number of the same
@@ -86,7 +85,7 @@ def source_power(m, p1, p2, rho1, k, kv, fl, fd, an, stp):
     regime, b = regimes(p1, p2, k, fl)
     e = (k - 1.0) / k
     a1 = p1 / rho1
-    dj = jet_diameter(kv, fd, fl)
+    dj = ac.jet_diameter(kv, fd, fl)
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         pvc = p1 - (p1 - p2) / fl ** 2
         ratio_vc = np.where(regime == 1, pvc / p1, 1.0)

@@ -39,24 +39,35 @@ from __future__ import annotations
 import numpy as np
 
 from . import acoustics as ac
-
+from .acoustics import jet_diameter
 from .sizing import KV_TO_CV
 
-N14_CV = 4.6e-3   # jet diameter constant with C as Cv, Dj in m (IEC 60534-8-3/8-4 table of N)
-N34_CV = 1.17
 AN_GLOBE = -4.6
 STROUHAL_CONSTANT = 0.036
+N34_CV = 1.17            # C as Cv
+P_REFERENCE = 6.0e5      # Pa, reference inlet pressure of xFz
+
+
+def estimate_xfz(kv, fd, fl):
+    """Incipient cavitation ratio xFz from trim data, IEC 60534-8-4 (estimate for lack of test data).
+
+    kv: flow coefficient Kv [m3/h] (the case's required one); fd: valve
+    style modifier; fl: liquid pressure recovery factor.  Dimensionless.
+    Valid for single-stage trims; multi-hole trims have their own estimate.
+    """
+    cv = np.asarray(kv, float) * KV_TO_CV
+    return 0.90 / np.sqrt(1.0 + 3.0 * fd * np.sqrt(cv / (N34_CV * fl)))
+
+
+def xfz_at_inlet(xfz, p1):
+    """xFz corrected for inlet pressure p1 [Pa]: xFzp1 = xFz (6e5 / p1)^0.125, IEC 60534-8-4."""
+    return xfz * (P_REFERENCE / p1) ** 0.125
 
 
 def vena_contracta_velocity(p1, p2, pv, rho, fl):
     """Uvc [m/s] from p1, p2, pv [Pa], rho [kg/m3], FL; pressure drop limited at choked flow."""
     dp_c = np.minimum(p1 - p2, fl ** 2 * (p1 - pv))
     return np.sqrt(2.0 * dp_c / rho) / fl, dp_c
-
-
-def jet_diameter(kv, fd, fl):
-    """Dj [m] = N14 Fd sqrt(C FL) with C as Cv, IEC 60534-8-3/8-4; kv [m3/h]."""
-    return N14_CV * fd * np.sqrt(kv * KV_TO_CV * fl)
 
 
 def cavitation_efficiency_ratio(xf, x, p1, p2, dp_c):
@@ -110,7 +121,7 @@ def liquid_noise(m, p1, p2, pv, rho, c_liquid, kv, d, di, wall, fl, fd, xfz, an=
     an = col(np.broadcast_to(an, p1.shape[:1]))
     applies = (p2 > pv) & (p1 > p2)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        x = xfz * (6e5 / p1) ** 0.125
+        x = xfz_at_inlet(xfz, p1)
         xf = (p1 - p2) / (p1 - pv)
         uvc, dp_c = vena_contracta_velocity(p1, p2, pv, rho, fl)
         wm = m * uvc ** 2 * fl ** 2 / 2.0

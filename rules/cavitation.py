@@ -17,29 +17,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from audit.sizing import KV_TO_CV
+from audit.noise_liquid import estimate_xfz, xfz_at_inlet
 
 from .base import Rule, RuleResult, Severity, Threshold, col, combine, findings, text, valid
-
-N34_CV = 1.17
-P_REFERENCE = 6.0e5  # Pa, reference inlet pressure of xFz
-
-
-def estimate_xfz(kv, fd, fl):
-    """Incipient cavitation ratio xFz from trim data, IEC 60534-8-4 (estimate for lack of test data).
-
-    kv: flow coefficient Kv [m3/h] (the case's required one); fd: valve
-    style modifier; fl: liquid pressure recovery factor.  Dimensionless.
-    Valid for single-stage trims; multi-hole trims have their own estimate.
-    """
-    cv = np.asarray(kv, float) * KV_TO_CV
-    return 0.90 / np.sqrt(1.0 + 3.0 * fd * np.sqrt(cv / (N34_CV * fl)))
-
-
-def xfz_at_inlet(xfz, p1):
-    """xFz corrected for inlet pressure p1 [Pa]: xFzp1 = xFz (6e5 / p1)^0.125, IEC 60534-8-4."""
-    return xfz * (P_REFERENCE / p1) ** 0.125
-
 
 def levels(xf, xfzp1, x_choke, flashing, developed_share):
     """Cavitation level per case from xF and its boundaries."""

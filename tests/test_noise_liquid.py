@@ -12,8 +12,7 @@ import numpy as np
 import pytest
 
 from audit import acoustics
-from audit.noise_liquid import liquid_noise
-from rules.cavitation import estimate_xfz
+from audit.noise_liquid import estimate_xfz, liquid_noise
 
 cv = pytest.importorskip("fluids.control_valve")
 
