@@ -33,7 +33,7 @@ def liquid_inputs_missing(cases, liquid):
 
 def per_valve(cases, name, default):
     """A row's own value of a noise parameter where the line list gives one, else the default."""
-    given = col(cases, name) if name in cases else np.full(len(cases), np.nan)
+    given = col(cases, name)
     return np.where(np.isfinite(given), given, default)
 
 
@@ -42,19 +42,19 @@ def downstream_wall(cases):
     wall = col(cases, "pipe_out_wall")
     std, nps = pipes.assumed_std_wall(col(cases, "pipe_out_id"))
     assumed = ~(np.isfinite(wall) & (wall > 0)) & np.isfinite(std)
-    note = np.array([f"; wall assumed {w * 1000:.2f} mm (STD, NPS {n:g}): the line list gives none" if a else ""
-                     for a, w, n in zip(assumed, std, nps)], dtype=object)
+    note = np.full(len(cases), "", dtype=object)
+    note[assumed] = [f"; wall assumed {w * 1000:.2f} mm (STD, NPS {n:g}): the line list gives none"
+                     for w, n in zip(std[assumed], nps[assumed])]
     return np.where(assumed, std, wall), note
 
 
-def liquid_levels(cases, an):
+def liquid_levels(cases, an, wall, wall_note):
     """noise_dba and noise_note for the liquid cases (IEC 60534-8-4)."""
     ok = valid(cases)
     liquid = ok & (text(cases, "phase") == "liquid")
     flashing = cases["flashing"].to_numpy(bool)
     missing = liquid_inputs_missing(cases, liquid & ~flashing)
     run = liquid & ~flashing & (missing == "")
-    wall, wall_note = downstream_wall(cases)
     level = np.full(len(cases), np.nan)
     if run.any():
         pick = lambda name: col(cases, name)[run]  # noqa: E731
@@ -71,10 +71,7 @@ def liquid_levels(cases, an):
     return level, note
 
 
-REGIME_NAMES = {1: "I", 2: "II", 3: "III", 4: "IV", 5: "V"}
-
-
-def gas_levels(cases, an, stp):
+def gas_levels(cases, an, stp, wall, wall_note):
     """noise_dba and noise_note for the gas and vapour cases (IEC 60534-8-3)."""
     gas = valid(cases) & (text(cases, "phase") == "gas")
     rho2, c2 = col(cases, "rho_out"), col(cases, "sound_speed_out")
@@ -86,7 +83,6 @@ def gas_levels(cases, an, stp):
     regime = np.zeros(len(cases), int)
     mach = np.full(len(cases), np.nan)
     outlet = np.zeros(len(cases), bool)
-    wall, wall_note = downstream_wall(cases)
     if run.any():
         pick = lambda name: col(cases, name)[run]  # noqa: E731
         res = noise_gas.gas_noise(
@@ -95,36 +91,38 @@ def gas_levels(cases, an, stp):
             an=per_valve(cases, "noise_an", an)[run], stp=per_valve(cases, "noise_stp", stp)[run])
         level[run], regime[run], mach[run], outlet[run] = (res["level_dba"], res["regime"], res["mach_outlet"],
                                                            res["outlet_flow"])
-    note = np.full(len(cases), "", dtype=object)
-    for i in np.flatnonzero(gas):
-        if not dry[i]:
-            note[i] = ("the outlet is not a dry gas (it condenses, or has no speed of sound): IEC 60534-8-3 covers "
-                       "single-phase dry gases only, so no level is predicted")
-        elif not has_k[i]:
-            note[i] = "no ratio of specific heats k for this gas (give column k)"
-        elif not np.isfinite(level[i]):
-            note[i] = (f"valve outlet Mach number {mach[i]:.2f} is 1 or more: beyond IEC 60534-8-3, so no level is "
-                       "predicted" if mach[i] >= 1 else "the gas noise method gave no finite level for these inputs")
-        else:
-            extra = (f"; outlet-flow noise added (valve outlet Mach {mach[i]:.2f} > 0.3)" if outlet[i] else "")
-            note[i] = f"IEC 60534-8-3, regime {REGIME_NAMES[int(regime[i])]}{extra}{wall_note[i]}"
+    computed = run & np.isfinite(level)
+    regime_name = np.array(["", "I", "II", "III", "IV", "V"], dtype=object)[regime]
+    outlet_note = np.full(len(cases), "", dtype=object)
+    outlet_note[outlet] = [f"; outlet-flow noise added (valve outlet Mach {m:.2f} > 0.3)" for m in mach[outlet]]
+    supersonic = run & ~computed & (mach >= 1.0)
+    mach_note = np.full(len(cases), "", dtype=object)
+    mach_note[supersonic] = [f"valve outlet Mach number {m:.2f} is 1 or more: beyond IEC 60534-8-3, so no level "
+                             "is predicted" for m in mach[supersonic]]
+    note = np.select(
+        [gas & ~dry, gas & ~has_k, supersonic, run & ~computed, computed],
+        ["the outlet is not a dry gas (it condenses, or has no speed of sound): IEC 60534-8-3 covers "
+         "single-phase dry gases only, so no level is predicted",
+         "no ratio of specific heats k for this gas (give column k)",
+         mach_note, "the gas noise method gave no finite level for these inputs",
+         "IEC 60534-8-3, regime " + regime_name + outlet_note + wall_note], "")
     return level, note
 
 
 def evaluate(cases, th) -> RuleResult:
-    liquid_level, liquid_note = liquid_levels(cases, th["an_liquid"])
-    gas_level, gas_note = gas_levels(cases, th["an_gas"], th["stp_gas"])
+    wall, wall_note = downstream_wall(cases)
+    liquid_level, liquid_note = liquid_levels(cases, th["an_liquid"], wall, wall_note)
+    gas_level, gas_note = gas_levels(cases, th["an_gas"], th["stp_gas"], wall, wall_note)
     level = np.where(np.isfinite(liquid_level), liquid_level, gas_level)
     note = np.where(liquid_note != "", liquid_note, gas_note)
-    per_valve = col(cases, "noise_limit")
-    limit = np.where(np.isfinite(per_valve), per_valve, th["limit_dba"])
-    source = np.where(np.isfinite(per_valve), "line-list limit", "default limit")
+    limit = per_valve(cases, "noise_limit", th["limit_dba"])
+    source = np.where(np.isfinite(col(cases, "noise_limit")), "line-list limit", "default limit")
     known = np.isfinite(level)
     severe = known & (level >= limit + th["urgent_over_db"])
     loud = known & (level > limit) & ~severe
     near = known & (level > limit - th["watch_margin_db"]) & (level <= limit)
     name = text(cases, "case")
-    missing_data = valid(cases) & ~known & np.array([n.startswith("no ") for n in note], bool)
+    missing_data = valid(cases) & ~known & np.char.startswith(note.astype(str), "no ")
 
     def said(i, what):
         return (f"Predicted noise {level[i]:.1f} dBA at 1 m at case {name[i]} is {what} the {source[i]} of "
