@@ -86,6 +86,17 @@ def col(cases: pd.DataFrame, name: str) -> np.ndarray:
     return cases[name].to_numpy(float)
 
 
+def per_valve(cases: pd.DataFrame, name: str, default) -> np.ndarray:
+    """A row's own value of a per-valve setting (a limit, a factor) where the line list gives one, else the default."""
+    given = col(cases, name)
+    return np.where(np.isfinite(given), given, default)
+
+
+def limit_source(cases: pd.DataFrame, name: str) -> np.ndarray:
+    """Which limit a sentence quotes: the row's own, or the rule's default."""
+    return np.where(np.isfinite(col(cases, name)), "line-list limit", "default limit")
+
+
 def text(cases: pd.DataFrame, name: str) -> np.ndarray:
     return cases[name].to_numpy(dtype=object)
 

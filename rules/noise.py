@@ -15,7 +15,8 @@ import numpy as np
 
 from audit import noise_gas, noise_liquid, pipes
 
-from .base import Rule, RuleResult, Severity, Threshold, col, combine, findings, text, valid
+from .base import (Rule, RuleResult, Severity, Threshold, col, combine, findings, limit_source, per_valve, text,
+                   valid)
 
 
 def liquid_inputs_missing(cases, liquid):
@@ -29,12 +30,6 @@ def liquid_inputs_missing(cases, liquid):
         values = col(cases, name)
         note = np.where(liquid & ~(np.isfinite(values) & (values > 0)), message, note)
     return note
-
-
-def per_valve(cases, name, default):
-    """A row's own value of a noise parameter where the line list gives one, else the default."""
-    given = col(cases, name)
-    return np.where(np.isfinite(given), given, default)
 
 
 def downstream_wall(cases):
@@ -116,7 +111,7 @@ def evaluate(cases, th) -> RuleResult:
     level = np.where(np.isfinite(liquid_level), liquid_level, gas_level)
     note = np.where(liquid_note != "", liquid_note, gas_note)
     limit = per_valve(cases, "noise_limit", th["limit_dba"])
-    source = np.where(np.isfinite(col(cases, "noise_limit")), "line-list limit", "default limit")
+    source = limit_source(cases, "noise_limit")
     known = np.isfinite(level)
     severe = known & (level >= limit + th["urgent_over_db"])
     loud = known & (level > limit) & ~severe

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .base import Rule, RuleResult, Severity, Threshold, col, combine, findings, text, valid
+from .base import Rule, RuleResult, Severity, Threshold, col, combine, findings, limit_source, per_valve, text, valid
 
 
 def outlet_velocity(w, rho_out, d):
@@ -27,9 +27,8 @@ def evaluate(cases, th) -> RuleResult:
     gas = phase == "gas"
     mach = np.where(ok & gas, u / col(cases, "sound_speed_out"), np.nan)
     default = np.select([gas, flashing], [th["gas_m_s"], th["flashing_m_s"]], th["liquid_m_s"])
-    per_valve = col(cases, "velocity_limit")
-    limit = np.where(np.isfinite(per_valve), per_valve, default)
-    source = np.where(np.isfinite(per_valve), "line-list limit", "default limit")
+    limit = per_valve(cases, "velocity_limit", default)
+    source = limit_source(cases, "velocity_limit")
     fast = ok & (u > limit)
     sonic = ok & gas & (mach > th["gas_mach"])
     name = text(cases, "case")
