@@ -11,6 +11,22 @@ from __future__ import annotations
 
 import numpy as np
 
+CHARACTERISTICS = ("linear", "equal_percentage", "quick_opening")
+_SPELLINGS = {"equal_percent": "equal_percentage", "eq_percentage": "equal_percentage", "=%": "equal_percentage",
+              "ep": "equal_percentage", "eq%": "equal_percentage", "lin": "linear", "qo": "quick_opening"}
+
+
+def normalise_characteristic(text: str) -> str:
+    """'Equal %', 'equal-percentage', '=%' -> 'equal_percentage'; blank -> 'equal_percentage' (the default).
+
+    Anything else comes back as written (lower case), for the caller to refuse.
+    """
+    word = str(text).strip().lower().replace(" ", "_").replace("-", "_")
+    if not word:
+        return "equal_percentage"
+    word = _SPELLINGS.get(word, word).replace("%", "percentage")
+    return _SPELLINGS.get(word, word)
+
 
 def travel_percent(cv_ratio, characteristic, rangeability):
     """Predicted travel [%] for a required-to-rated Cv ratio, per inherent characteristic.

@@ -10,6 +10,7 @@ Exit status of ``run`` (also in the README):
 """
 from __future__ import annotations
 
+import re
 import tomllib
 import traceback
 from pathlib import Path
@@ -21,13 +22,23 @@ from . import __version__
 
 EXIT_OK, EXIT_REJECTED, EXIT_USAGE, EXIT_INPUT, EXIT_BUG = 0, 1, 2, 3, 70
 FORMATS = ("csv", "html", "pdf", "xlsx", "json")
+P_ATM_RANGE_KPA = (30.0, 110.0)  # from a high-altitude site to a deep one; outside is a typo
 BUG_MESSAGE = ("valve-audit hit an internal error; this is a bug in the tool, not in your line list. "
                "Please report it with the line list (or the rows that trigger it) and this message:")
 
-app = typer.Typer(add_completion=False, no_args_is_help=True,
+app = typer.Typer(add_completion=False, no_args_is_help=True, context_settings={"help_option_names": ["-h", "--help"]},
+                  rich_markup_mode=None,
                   help="Screen a whole control-valve line list against IEC 60534 (sizing, choking, "
                        "cavitation, flashing, velocity, noise, travel). Screening only: results must be "
                        "confirmed by a competent engineer; local codes and licensed practice govern.")
+
+
+class InputProblem(Exception):
+    """The input (a file the user gave) cannot be used: exit 3 with the message."""
+
+
+class UsageProblem(Exception):
+    """An option's value does not fit the line list (an unknown case name): exit 2 with the message."""
 
 
 def _load_toml(path: Path, what: str) -> dict:
@@ -35,38 +46,89 @@ def _load_toml(path: Path, what: str) -> dict:
         return tomllib.loads(path.read_text(encoding="utf-8"))
     except FileNotFoundError:
         raise InputProblem(f"the {what} '{path}' does not exist")
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        raise InputProblem(f"the {what} '{path}' is not valid TOML: {exc}")
+    except IsADirectoryError:
+        raise InputProblem(f"the {what} '{path}' is a folder, not a file")
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError, ValueError) as exc:
+        raise InputProblem(f"the {what} '{path}' is not valid TOML: {str(exc)[:200]}")
+    except OSError as exc:
+        raise InputProblem(f"the {what} '{path}' cannot be read: {exc.strerror or exc}")
 
 
-class InputProblem(Exception):
-    pass
+# Option checks run while the command line is parsed, so a wrong value is exit 2 with the option named.
+def _formats(value: str) -> str:
+    wanted = {f.strip().lower() for f in value.split(",") if f.strip()}
+    unknown = wanted - set(FORMATS)
+    if unknown:
+        raise typer.BadParameter(f"unknown format(s) {', '.join(sorted(unknown))}; choose from {', '.join(FORMATS)}")
+    return ",".join(sorted(wanted | {"csv"}))
+
+
+def _positive(value: float) -> float:
+    if not (value > 0) or value == float("inf"):
+        raise typer.BadParameter(f"{value:g} is not a positive number")
+    return value
+
+
+def _p_atm(value: float) -> float:
+    if not (P_ATM_RANGE_KPA[0] <= value <= P_ATM_RANGE_KPA[1]):
+        raise typer.BadParameter(f"{value:g} kPa is not a site atmospheric pressure; expected "
+                                 f"{P_ATM_RANGE_KPA[0]:g} to {P_ATM_RANGE_KPA[1]:g} kPa (sea level: 101.325)")
+    return value
+
+
+def _backend(value: str) -> str:
+    if not re.fullmatch(r"HEOS|(BICUBIC|TTSE)&HEOS", value):
+        raise typer.BadParameter(f"'{value}' is not a property backend; choose HEOS (full equation of state), "
+                                 "BICUBIC&HEOS or TTSE&HEOS (tabular)")
+    return value
+
+
+def _at_least_one(value: int) -> int:
+    if value < 1:
+        raise typer.BadParameter(f"{value} must be 1 or more")
+    return value
+
+
+def _show_version(value: bool):
+    if value:
+        typer.echo(f"valve-audit {__version__}")
+        raise typer.Exit(EXIT_OK)
+
+
+@app.callback()
+def _main(version: bool = typer.Option(False, "--version", callback=_show_version, is_eager=True,
+                                       help="Print the version and exit.")):
+    """Screen a whole control-valve line list against IEC 60534."""
 
 
 @app.command()
 def run(
-    linelist: Path = typer.Argument(..., help="Line list, CSV or XLSX, columns as in the line-list contract."),
+    linelist: str = typer.Argument(..., help="Line list, CSV or XLSX (docs/input.md); '-' reads standard input."),
     out: Path = typer.Option(Path("reports"), "--out", help="Folder for the outputs (created if missing)."),
-    sheet: Optional[str] = typer.Option(None, "--sheet", help="XLSX sheet to read (default: the first)."),
-    p_atm: float = typer.Option(101.325, "--p-atm", help="Site atmospheric pressure [kPa] for gauge units "
-                                                          "(barg, kPag, psig); a p_atm column overrides it per row."),
+    sheet: Optional[str] = typer.Option(None, "--sheet", help="XLSX sheet to read (default: the first visible one)."),
+    p_atm: float = typer.Option(101.325, "--p-atm", callback=_p_atm,
+                                help="Site atmospheric pressure, in kPa, for gauge units (barg, kPag, psig); "
+                                     "a p_atm column overrides it per row."),
     rules_file: Optional[Path] = typer.Option(None, "--rules", help="Site rule file (TOML) overriding "
                                                                      "thresholds; see 'valve-audit rules'."),
-    formats: str = typer.Option("csv,html,pdf,xlsx", "--format",
+    formats: str = typer.Option("csv,html,pdf,xlsx", "--format", callback=_formats,
                                 help="Comma-separated outputs among csv, html, pdf, xlsx, json. The CSV files "
                                      "are always written."),
-    scale_flow: float = typer.Option(1.0, "--scale-flow", help="What-if: multiply the flow of the chosen cases."),
+    scale_flow: float = typer.Option(1.0, "--scale-flow", callback=_positive,
+                                     help="What-if: multiply the flow of the chosen cases."),
     scale_cases: str = typer.Option("", "--scale-cases", help="Comma-separated cases --scale-flow applies to "
                                                               "(default: all)."),
     area_scale: Optional[Path] = typer.Option(None, "--area-scale", help="What-if: TOML table "
                                                                          "{area = multiplier} on top of --scale-flow."),
     trims: Optional[Path] = typer.Option(None, "--trims", help="CSV of available trims per body size; valves "
                                                                "with findings are re-screened against them."),
-    backend: str = typer.Option("HEOS", "--backend", help="CoolProp backend for pure fluids: HEOS (full "
-                                                          "equation of state) or a tabular one, BICUBIC&HEOS."),
-    max_rows: int = typer.Option(100_000, "--max-rows", help="Refuse a line list with more rows."),
-    max_bytes: int = typer.Option(50_000_000, "--max-bytes", help="Refuse a line list file larger than this."),
-    max_cell: int = typer.Option(1_000, "--max-cell", help="Reject a row with a longer cell."),
+    backend: str = typer.Option("HEOS", "--backend", callback=_backend,
+                                help="CoolProp backend for pure fluids: HEOS (full equation of state) or a "
+                                     "tabular one, BICUBIC&HEOS or TTSE&HEOS."),
+    max_rows: int = typer.Option(100_000, "--max-rows", callback=_at_least_one, help="Refuse a line list with more rows."),
+    max_bytes: int = typer.Option(50_000_000, "--max-bytes", callback=_at_least_one,
+                                  help="Refuse a line list file larger than this many bytes."),
+    max_cell: int = typer.Option(1_000, "--max-cell", callback=_at_least_one, help="Reject a row with a longer cell."),
     quiet: bool = typer.Option(False, "--quiet", help="No progress or summary on the terminal (for schedulers)."),
 ):
     """Audit LINELIST and write results.csv, valves.csv, rejected.csv and the reports into --out.
@@ -80,6 +142,9 @@ def run(
     except InputProblem as exc:
         typer.echo(f"valve-audit: {exc}", err=True)
         code = EXIT_INPUT
+    except UsageProblem as exc:
+        typer.echo(f"valve-audit: {exc}", err=True)
+        code = EXIT_USAGE
     except KeyboardInterrupt:
         raise
     except Exception:
@@ -93,36 +158,31 @@ def _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cas
          max_rows, max_bytes, max_cell, quiet) -> int:
     from .engine import Options
     from .loader import InputError, Limits
-    from .pipeline import run_files
+    from .outputs import OutputError
+    from .pipeline import OptionMismatch, run_files
     from rules import ThresholdError, effective_thresholds
 
-    wanted = {f.strip().lower() for f in formats.split(",") if f.strip()}
-    unknown = wanted - set(FORMATS)
-    if unknown:
-        raise typer.BadParameter(f"unknown format(s) {', '.join(sorted(unknown))}; choose from {', '.join(FORMATS)}",
-                                 param_hint="--format")
-    if not (scale_flow > 0):
-        raise typer.BadParameter("must be a positive number", param_hint="--scale-flow")
-    if not (p_atm > 0):
-        raise typer.BadParameter("must be a positive pressure in kPa", param_hint="--p-atm")
     thresholds = _load_toml(rules_file, "rule file") if rules_file else {}
     try:
         effective_thresholds(thresholds)
     except ThresholdError as exc:
         raise InputProblem(f"rule file '{rules_file}': {exc}")
     areas = _load_toml(area_scale, "area scaling file") if area_scale else {}
-    bad = [k for k, v in areas.items() if isinstance(v, bool) or not isinstance(v, (int, float)) or v <= 0]
+    bad = [k for k, v in areas.items() if isinstance(v, bool) or not isinstance(v, (int, float)) or not v > 0
+           or v == float("inf")]
     if bad:
         raise InputProblem(f"area scaling file: multipliers must be positive numbers (check {', '.join(bad[:5])})")
     options = Options(p_atm=p_atm * 1000.0, backend=backend, thresholds=thresholds, flow_scale=scale_flow,
-                      scale_cases=tuple(c.strip() for c in scale_cases.split(",") if c.strip()),
+                      scale_cases=tuple(c.strip().lower() for c in scale_cases.split(",") if c.strip()),
                       area_scale={str(k): float(v) for k, v in areas.items()})
     limits = Limits(max_bytes=max_bytes, max_rows=max_rows, max_cell_chars=max_cell)
     try:
-        summary = run_files(linelist, out, options, limits, sheet=sheet, formats=wanted | {"csv"},
+        summary = run_files(linelist, out, options, limits, sheet=sheet, formats=set(formats.split(",")),
                             rules_file=rules_file, trims_file=trims, quiet=quiet)
-    except InputError as exc:
+    except (InputError, OutputError) as exc:
         raise InputProblem(str(exc))
+    except OptionMismatch as exc:
+        raise (UsageProblem(str(exc)) if exc.usage else InputProblem(str(exc)))
     return EXIT_OK if summary.rejected == 0 else EXIT_REJECTED
 
 
@@ -132,6 +192,7 @@ def rules_cmd(
 ):
     """Print every rule, its thresholds, their source and the effective value after a site file."""
     from rules import ThresholdError, all_rules, effective_thresholds
+    from rules.severity import ADJUSTMENTS, TABLE
 
     try:
         effective = effective_thresholds(_load_toml(rules_file, "rule file") if rules_file else {})
@@ -149,6 +210,13 @@ def rules_cmd(
                        f"{t.meaning}{mark}")
     typer.echo("A row's velocity_limit overrides the velocity limit for that valve, and its noise_limit the "
                "noise limit. Noise: IEC 60534-8-3 for gases and vapours, IEC 60534-8-4 for liquids.")
+    typer.echo("")
+    typer.echo("Severity table (docs/severity.md): finding, level, when, source")
+    for g in TABLE:
+        typer.echo(f"  {g.code:<22} {g.severity.label:<7} {g.when}   (source: {g.source})")
+    typer.echo("Changed by the line list's service columns:")
+    for codes, when, becomes in ADJUSTMENTS:
+        typer.echo(f"  {codes}: {when} -> {becomes}")
 
 
 @app.command()
@@ -171,7 +239,7 @@ def compare(
 @app.command()
 def version():
     """Print the tool version."""
-    typer.echo(__version__)
+    typer.echo(f"valve-audit {__version__}")
 
 
 def main():  # console entry point

@@ -19,6 +19,7 @@ from .outputs import staged_folder, to_csv_text
 
 RATIO_STEP = 0.005  # choke-ratio change below this is rounding, not a change
 CHANGE_COLUMNS = ["tag", "change", "old", "new", "detail"]
+NEEDED = ("tag", "worst_case", "choke_ratio_max", "finding_codes")  # the valves.csv columns a comparison reads
 
 
 class CompareError(Exception):
@@ -29,12 +30,26 @@ def _read(folder: Path) -> tuple[pd.DataFrame, dict]:
     info_path = folder / "audit_info.json"
     if not (folder / "valves.csv").exists() or not info_path.exists():
         raise CompareError(f"'{folder}' does not hold an audit's outputs (valves.csv and audit_info.json)")
-    info = json.loads(info_path.read_text(encoding="utf-8"))
+    try:
+        info = json.loads(info_path.read_text(encoding="utf-8"))
+    except (OSError, UnicodeDecodeError, ValueError) as exc:
+        raise CompareError(f"'{info_path}' cannot be read as JSON: {str(exc)[:120]}") from None
+    if not isinstance(info, dict):
+        raise CompareError(f"'{info_path}' is not an audit's information file")
     if str(info.get("output_format_version")) != OUTPUT_FORMAT_VERSION:
         raise CompareError(f"'{folder}' was written with output format version {info.get('output_format_version')!r} "
                            f"(valve-audit {info.get('tool_version', '?')}); this version reads format "
                            f"{OUTPUT_FORMAT_VERSION}. Rerun both audits with the same version to compare them.")
-    valves = pd.read_csv(folder / "valves.csv", dtype={"tag": str, "finding_codes": str}, keep_default_na=False)
+    try:
+        valves = pd.read_csv(folder / "valves.csv", dtype=str, keep_default_na=False, encoding="utf-8-sig")
+    except (OSError, UnicodeDecodeError, ValueError, pd.errors.ParserError) as exc:
+        raise CompareError(f"'{folder / 'valves.csv'}' cannot be read as CSV: {str(exc)[:120]}") from None
+    missing = [c for c in NEEDED if c not in valves.columns]
+    if missing:
+        raise CompareError(f"'{folder / 'valves.csv'}' lacks column(s) {', '.join(missing)}; was it edited?")
+    dup = valves["tag"][valves["tag"].duplicated()]
+    if len(dup):
+        raise CompareError(f"'{folder / 'valves.csv'}' lists tag '{dup.iloc[0][:40]}' twice; was it edited?")
     return valves, info
 
 
@@ -93,7 +108,7 @@ def compare_folders(old_dir: Path, new_dir: Path, out: Path) -> str:
     counts = ", ".join(f"{n} {k}" for k, n in changes["change"].value_counts().sort_index().items()) or "no changes"
     html = Environment(autoescape=select_autoescape(default_for_string=True)).from_string(_PAGE).render(
         old=old_info, new=new_info, rows=changes.to_dict(orient="records"), counts=counts)
-    with staged_folder(Path(out)) as stage:
+    with staged_folder(Path(out), published=("comparison.csv", "comparison.html")) as stage:
         (stage / "comparison.csv").write_text(to_csv_text(changes), encoding="utf-8")
         (stage / "comparison.html").write_text(html, encoding="utf-8")
     return f"{len(changes)} changes: {counts}"

@@ -12,8 +12,10 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from . import properties, sizing
+from . import properties
+from .casetable import size_arrays, sizing_arrays
 from .characteristic import travel_percent
+from .headroom import add_case_headroom, add_valve_headroom
 from .loader import LineList
 
 R_GAS = properties.R_GAS
@@ -41,16 +43,20 @@ class Audit:
     valve_extra_columns: tuple[str, ...] = ()   # valves.csv columns beyond the contract
 
 
+# The valve's own fields each case carries (the rules read them per case).
+VALVE_FIELDS = ("tag", "area", "service", "valve_size", "rated_cv", "characteristic", "rangeability", "fl", "xt",
+                "fd", "xfz_given", "pipe_in_id", "pipe_out_id", "pipe_out_wall", "noise_limit", "noise_an", "noise_stp",
+                "velocity_limit", "custom", "phase_given", "typical_factors", "overridden", "sound_speed", "intent",
+                "duty", "criticality", "dissolved_gas", "density", "vapour_pressure", "critical_pressure", "viscosity",
+                "molar_mass", "k", "z")
+
+
 def case_table(ll: LineList, options: Options) -> pd.DataFrame:
     """Join each case with its valve's fields, as flat SI arrays."""
     cases = ll.cases.copy()
     v = cases["valve"].to_numpy(int)
     vals = ll.valves
-    for col in ("tag", "area", "service", "valve_size", "rated_cv", "characteristic", "rangeability",
-                "fl", "xt", "fd", "xfz_given", "pipe_in_id", "pipe_out_id", "pipe_out_wall",
-                "noise_limit", "noise_an", "noise_stp", "velocity_limit", "custom", "phase_given", "typical_factors",
-                "overridden", "sound_speed") + ("density", "vapour_pressure", "critical_pressure",
-                                                 "viscosity", "molar_mass", "k", "z"):
+    for col in VALVE_FIELDS:
         cases[col if col != "sound_speed" else "sound_speed_given"] = vals[col].to_numpy()[v]
     applies = np.isin(cases["case"], options.scale_cases) if options.scale_cases else np.ones(len(cases), bool)
     scale = np.where(applies, options.flow_scale, 1.0)
@@ -121,32 +127,6 @@ def add_mass_flow(cases: pd.DataFrame) -> None:
     std_liquid = (basis == "std") & ~gas & (err == "")
     cases["case_error"] = np.where(std_liquid, "a standard gas volume flow (Nm3/h, Sm3/h, scfh, MMSCFD) was given "
                                                "for a liquid; give m3/h, l/min, gpm or a mass flow", err)
-
-
-# The case columns sizing.size_valves takes, in its argument order (after is_gas).
-SIZING_INPUTS = ("w", "p_in", "p_out", "t_in", "rho", "pv", "pc", "mu", "molar_mass", "k", "valve_size",
-                 "pipe_in_id", "pipe_out_id", "fl", "xt", "fd")
-
-
-def sizing_arrays(cases: pd.DataFrame, rows=slice(None)) -> dict[str, np.ndarray]:
-    """The sizing inputs of ``cases`` (optionally some rows) as SI arrays, plus ``gas``.
-
-    A pipe bore slightly under the valve size (heavy schedule, same nominal size) is no
-    reducer: the bores are floored at the valve size here, once, for every caller.
-    """
-    a = {k: cases[k].to_numpy(float)[rows] for k in SIZING_INPUTS}
-    for side in ("pipe_in_id", "pipe_out_id"):
-        a[side] = np.maximum(a[side], a["valve_size"])
-    a["gas"] = cases["phase"].to_numpy(dtype=object)[rows] == "gas"
-    return a
-
-
-def size_arrays(a: dict[str, np.ndarray], w: np.ndarray | None = None) -> dict[str, np.ndarray]:
-    """sizing.size_valves on ``sizing_arrays`` output, with the mass flow replaced by ``w`` if given."""
-    args = [a[k] for k in SIZING_INPUTS]
-    if w is not None:
-        args[0] = w
-    return sizing.size_valves(a["gas"], *args)
 
 
 def add_sizing(cases: pd.DataFrame) -> None:
@@ -237,6 +217,8 @@ def compute(ll: LineList, options: Options | None = None) -> Audit:
     from rules import apply_rules  # the rules package depends on audit, not the reverse
     from .ranking import rank_valves
 
+    from rules import effective_thresholds
+
     options = options or Options()
     cases = case_table(ll, options)
     add_properties(cases, ll, options)
@@ -244,11 +226,10 @@ def compute(ll: LineList, options: Options | None = None) -> Audit:
     ll, cases = reject_unauditable(ll, cases)
     add_sizing(cases)
     add_outlet_state(cases, ll, options)
+    add_case_headroom(cases, effective_thresholds(options.thresholds)["travel"]["high_pct"])
     findings = apply_rules(cases, options.thresholds)
     valves = rank_valves(ll.valves, cases, findings)
-    from rules import effective_thresholds
-    from .headroom import add_headroom
-    extra = add_headroom(cases, valves, effective_thresholds(options.thresholds)["travel"]["high_pct"])
+    extra = add_valve_headroom(cases, valves)
     audit = Audit(cases, valves, ll.rejected, findings, ll, options)
-    audit.valve_extra_columns = tuple(extra)
+    audit.valve_extra_columns = ("criticality",) + tuple(extra)
     return audit

@@ -17,7 +17,7 @@ import pandas as pd
 
 from . import sizing
 from .characteristic import cv_ratio_at_travel
-from .engine import size_arrays, sizing_arrays
+from .casetable import size_arrays, sizing_arrays
 
 _BISECTIONS = 40
 CEILING_OUTLET_SHARE = 0.01  # outlet at 1 % of the inlet pressure: past any choke point
@@ -75,12 +75,16 @@ def capacity_ceiling(a: dict, cv: np.ndarray) -> np.ndarray:
     return flow_multiplier_to_cv(a, cv, p_out=a["p_in"] * CEILING_OUTLET_SHARE)
 
 
-def add_headroom(cases: pd.DataFrame, valves: pd.DataFrame, high_travel_pct: float) -> list[str]:
-    """Per-case headroom columns on ``cases``; per-valve minima on ``valves``; returns the new valve columns."""
+HEADROOM_CASE_COLUMNS = ("flow_mult_high_travel", "flow_mult_full_travel", "capacity_ceiling_mult",
+                         "dp_headroom_kpa")
+HEADROOM_VALVE_COLUMNS = HEADROOM_CASE_COLUMNS + ("headroom_case",)
+
+
+def add_case_headroom(cases: pd.DataFrame, high_travel_pct: float) -> None:
+    """Per-case headroom columns on ``cases`` (before the rules, which read the capacity margin)."""
     sized = np.flatnonzero(cases["converged"].to_numpy(bool))
     n = len(cases)
-    cols = {name: np.full(n, np.nan) for name in ("flow_mult_high_travel", "flow_mult_full_travel",
-                                                   "capacity_ceiling_mult", "dp_headroom_kpa")}
+    cols = {name: np.full(n, np.nan) for name in HEADROOM_CASE_COLUMNS}
     if sized.size:
         a = sizing_arrays(cases, sized)
         rated = cases["rated_cv"].to_numpy(float)[sized]
@@ -93,16 +97,19 @@ def add_headroom(cases: pd.DataFrame, valves: pd.DataFrame, high_travel_pct: flo
                                           - cases["dp"].to_numpy(float)[sized]) / 1000.0
     for name, values in cols.items():
         cases[name] = values
-    per_valve = cases.groupby("valve").agg(
-        flow_mult_high_travel=("flow_mult_high_travel", "min"), flow_mult_full_travel=("flow_mult_full_travel", "min"),
-        capacity_ceiling_mult=("capacity_ceiling_mult", "min"), dp_headroom_kpa=("dp_headroom_kpa", "min"))
+    # Choked at full travel: fully open, this case's outlet pressure already gives the most flow the
+    # valve can pass (the ceiling); throughput is then limited by choking, not by the trim.
+    cases["choked_at_full_travel"] = cols["flow_mult_full_travel"] >= cols["capacity_ceiling_mult"] * (1 - 2e-3)
+
+
+def add_valve_headroom(cases: pd.DataFrame, valves: pd.DataFrame) -> list[str]:
+    """Per-valve minima of the case headroom on ``valves`` (indexed by its ``valve`` column)."""
+    per_valve = cases.groupby("valve").agg(**{name: (name, "min") for name in HEADROOM_CASE_COLUMNS})
     limiting = cases[np.isfinite(cases["flow_mult_full_travel"].to_numpy(float))] \
         .sort_values(["valve", "flow_mult_full_travel"], kind="stable").drop_duplicates("valve")
     per_valve["headroom_case"] = pd.Series(limiting["case"].to_numpy(), index=limiting["valve"].to_numpy())
     joined = valves[["valve"]].join(per_valve, on="valve")
-    new = ["flow_mult_high_travel", "flow_mult_full_travel", "capacity_ceiling_mult", "dp_headroom_kpa",
-           "headroom_case"]
-    for name in new:
+    for name in HEADROOM_VALVE_COLUMNS:
         valves[name] = joined[name].to_numpy()
     valves["headroom_case"] = valves["headroom_case"].fillna("")
-    return new
+    return list(HEADROOM_VALVE_COLUMNS)

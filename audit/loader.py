@@ -1,6 +1,6 @@
 """Line-list loader: CSV or XLSX in, SI tables of valves and valve-cases out.
 
-Follows ../shared/spec/linelist.md.  The loader never raises for anything
+Follows docs/input.md.  The loader never raises for anything
 inside a line list: every problem becomes a message naming the column, the
 value and what was expected, attached to its row (the row is rejected) or
 to one operating case (the valve keeps its other cases).
@@ -14,6 +14,7 @@ Output of ``load_linelist``:
 """
 from __future__ import annotations
 
+import difflib
 import os
 import re
 from dataclasses import dataclass, field
@@ -23,8 +24,11 @@ import numpy as np
 import pandas as pd
 
 from . import pipes, styles
+from .characteristic import CHARACTERISTICS, normalise_characteristic
 from .properties import Fluid, resolve_fluid
-from .units import P_STD, _clip, parse_column
+from .reader import InputError, Limits, RawTable, clean_text, normalise_header, read_source
+from .shapes import fold_long
+from .units import P_STD, _clip, is_unit_text, parse_column
 
 CASE_FIELDS = {  # prefix: (kind, default unit)
     "flow": ("flow", ""),          # default depends on the phase: m3/h liquid, kg/h gas
@@ -63,26 +67,18 @@ NUMERIC = {  # column: (kind, default unit)
     "noise_stp": ("dimensionless", ""),
 }
 TEXT = ("tag", "area", "service", "fluid", "phase", "characteristic", "valve_style",
-        "pipe_in_schedule", "pipe_out_schedule")
-CHARACTERISTICS = ("linear", "equal_percentage", "quick_opening")
+        "pipe_in_schedule", "pipe_out_schedule", "intent", "duty", "criticality", "dissolved_gas")
 OVERRIDES = ("density", "vapour_pressure", "critical_pressure", "viscosity", "molar_mass", "k", "z")
 CUSTOM_NEEDS = {"liquid": ("density", "vapour_pressure", "critical_pressure", "viscosity"),
                 "gas": ("molar_mass", "k", "z", "viscosity")}
 PIPE_NARROWER_LIMIT = 0.75  # pipe bore below this share of the valve size is refused
 
+KNOWN = set(NUMERIC) | set(TEXT) | {"p_atm"}
+# A bare valve size (no unit in the cell or the header) below this is taken for inches written
+# without a unit, and refused: the smallest common control-valve body is DN15.
+BARE_SIZE_MIN_MM = 15.0
+
 PHASE_WORDS = {"liquid": "liquid", "gas": "gas", "vapour": "gas", "vapor": "gas", "steam": "gas"}
-
-
-@dataclass
-class Limits:
-    """Refusal limits for an input, so a huge or hostile file is refused, not ground through."""
-    max_bytes: int = 50_000_000
-    max_rows: int = 100_000
-    max_cell_chars: int = 1_000
-
-
-class InputError(Exception):
-    """The input as a whole cannot be read (missing, unreadable, over a limit)."""
 
 
 @dataclass
@@ -92,75 +88,24 @@ class LineList:
     rejected: pd.DataFrame
     ignored_columns: list[str] = field(default_factory=list)
     rows_total: int = 0
+    source: RawTable | None = None      # where it came from: name, sheet, digest, reader notes
 
 
-def normalise_header(raw: str) -> tuple[str, str]:
-    """'P_in max [barg]' -> ('p_in_max', 'barg').  Spaces and hyphens count as underscores."""
-    text = str(raw).strip()
-    unit = ""
-    m = re.match(r"^(.*?)\s*\[(.*)\]\s*$", text)
-    if m:
-        text, unit = m.group(1), m.group(2).strip()
-    name = re.sub(r"[\s\-]+", "_", text.strip().lower())
-    return name, unit
+def is_known_column(name: str) -> bool:
+    """A normalised header this loader reads (wide or long layout)."""
+    return name in KNOWN or bool(CASE_COLUMN.match(name)) or name in CASE_FIELDS or name == "case"
 
 
-def read_table(path: Path, sheet: str | None, limits: Limits) -> pd.DataFrame:
-    """Read every cell as text (CSV) or as stored (XLSX, cached values, formulas not evaluated)."""
-    if not path.exists():
-        raise InputError(f"the line list '{path}' does not exist")
-    size = path.stat().st_size
-    if size > limits.max_bytes:
-        raise InputError(f"the line list is {size:,} bytes, over the limit of {limits.max_bytes:,} "
-                         "(raise it with --max-bytes if the file is genuine)")
-    suffix = path.suffix.lower()
-    try:
-        if suffix in (".xlsx", ".xlsm"):
-            frame = _read_xlsx(path, sheet)
-        elif suffix in (".csv", ".txt"):
-            frame = pd.read_csv(path, dtype=str, keep_default_na=False, encoding="utf-8-sig",
-                                sep=None, engine="python")
-        else:
-            raise InputError(f"'{path.name}': expected a .csv or .xlsx line list")
-    except InputError:
-        raise
-    except Exception as exc:  # any reader failure is the file's, not the tool's
-        raise InputError(f"could not read '{path.name}': {str(exc)[:200]}") from None
-    if len(frame) > limits.max_rows:
-        raise InputError(f"the line list has {len(frame):,} rows, over the limit of {limits.max_rows:,} "
-                         "(raise it with --max-rows if the file is genuine)")
-    return frame
-
-
-def _read_xlsx(path: Path, sheet: str | None) -> pd.DataFrame:
-    """XLSX through calamine when installed (fast), else openpyxl read-only.
-
-    Both return the values the spreadsheet stored; neither evaluates a
-    formula nor follows an external link.
-    """
-    try:
-        from python_calamine import CalamineWorkbook
-    except ImportError:
-        CalamineWorkbook = None
-    if CalamineWorkbook is not None:
-        book = CalamineWorkbook.from_path(str(path))
-        name = sheet or book.sheet_names[0]
-        if name not in book.sheet_names:
-            raise InputError(f"'{path.name}' has no sheet '{sheet}'; it has {', '.join(book.sheet_names)}")
-        rows = book.get_sheet_by_name(name).to_python(skip_empty_area=False)
-    else:
-        import openpyxl
-        book = openpyxl.load_workbook(path, read_only=True, data_only=True, keep_links=False)
-        name = sheet or book.sheetnames[0]
-        if name not in book.sheetnames:
-            raise InputError(f"'{path.name}' has no sheet '{sheet}'; it has {', '.join(book.sheetnames)}")
-        rows = [list(r) for r in book[name].iter_rows(values_only=True)]
-        book.close()
-    if not rows:
-        return pd.DataFrame()
-    header = ["" if h is None else str(h) for h in rows[0]]
-    body = [["" if v is None else v for v in r] + [""] * (len(header) - len(r)) for r in rows[1:]]
-    return pd.DataFrame([r[:len(header)] for r in body], columns=header, dtype=object)
+def suggestion(name: str) -> str:
+    """' (did you mean 'x'?)' for a near miss among the known column names, else ''."""
+    pool = sorted(KNOWN | {f"{p}_max" for p in CASE_FIELDS} | {f"{p}_<case>" for p in CASE_FIELDS})
+    close = difflib.get_close_matches(name, pool, n=1, cutoff=0.75)
+    if not close:
+        m = re.match(r"^([a-z]+(?:_[a-z]+)?)_([a-z0-9_]+)$", name)
+        if m:
+            prefix = difflib.get_close_matches(m.group(1), list(CASE_FIELDS), n=1, cutoff=0.75)
+            close = [f"{prefix[0]}_{m.group(2)}"] if prefix else []
+    return f" (did you mean '{close[0]}'?)" if close else ""
 
 
 class _Reasons:
@@ -176,6 +121,11 @@ class _Reasons:
     def add_array(self, messages: np.ndarray) -> None:
         for i in np.flatnonzero(messages != ""):
             self.text[i].append(messages[i])
+
+    def mentions(self, column: str) -> np.ndarray:
+        """Rows that already have a reason naming ``column`` (so a blank it caused is not reported twice)."""
+        needle = f"'{column}'"
+        return np.array([any(needle in t for t in texts) for texts in self.text], dtype=bool)
 
     def bad(self) -> np.ndarray:
         return np.array([bool(t) for t in self.text], dtype=bool)
@@ -194,34 +144,36 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     Raises InputError only when the file as a whole cannot be read.
     """
     limits = limits or Limits()
-    path = Path(path)
-    raw = read_table(path, sheet, limits)
-    columns, units, ignored = _columns(raw)
-    table = pd.DataFrame({name: raw.iloc[:, pos] for name, pos in columns.items()})
-    table = table.astype(object).where(table.notna(), "")
+    raw = read_source(path, sheet, limits, is_known=is_known_column, is_unit=is_unit_text)
+    table, units, ignored, row_numbers, early = _columns(raw)
     blank = table.apply(lambda col: col.astype(str).str.strip() == "").all(axis=1).to_numpy() \
-        if len(table.columns) else np.ones(len(raw), dtype=bool)
+        if len(table.columns) else np.ones(len(table), dtype=bool)
     table = table.loc[~blank].reset_index(drop=True)
-    row_numbers = np.flatnonzero(~blank) + 2  # header is spreadsheet row 1
+    row_numbers = row_numbers[~blank]
+    early = [e for e, b in zip(early, blank) if not b]
     n = len(table)
     reasons = _Reasons(n)
+    for i, why in enumerate(early):
+        reasons.text[i].extend(why)
     text = {c: _text(table, c) for c in TEXT}
     _check_cell_length(table, limits, reasons)
 
     site = np.full(n, float(p_atm))
     if "p_atm" in table:
-        parsed = parse_column(table["p_atm"], "pressure", units.get("p_atm", ""), "kPa", "p_atm", site)
+        parsed = parse_column(table["p_atm"], "pressure", units.get("p_atm", ""), "kPa", "p_atm", site,
+                              raw.decimal_comma)
         reasons.add_array(parsed.errors)
         site = np.where(np.isfinite(parsed.values), parsed.values, site)
     num = {}
     for col, (kind, default) in NUMERIC.items():
         if col in table:
-            parsed = parse_column(table[col], kind, units.get(col, ""), default, col, site)
+            parsed = parse_column(table[col], kind, units.get(col, ""), default, col, site, raw.decimal_comma)
             reasons.add_array(parsed.errors)
             num[col] = parsed.values
         else:
             num[col] = np.full(n, np.nan)
 
+    _bare_sizes(table, units, num, reasons)
     valves = pd.DataFrame({"row": row_numbers, "p_atm": site})
     for c in ("tag", "area", "service"):
         valves[c] = text[c]
@@ -229,6 +181,7 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     fluids = _fluids(text, num, reasons, valves)
     _valve(text, num, reasons, valves)
     _piping(text, num, reasons, valves)
+    _service(text, reasons, valves)
     valves["noise_limit"] = num["noise_limit"]
     valves["velocity_limit"] = num["velocity_limit"]
     # The valve maker's acoustic data for the noise methods (IEC 60534-8-3/8-4), where known.
@@ -242,7 +195,7 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     valves["overridden"] = [", ".join(c for c in OVERRIDES if np.isfinite(num[c][i])
                                       and not valves["custom"][i]) for i in range(n)]
 
-    cases = _cases(table, units, site, n)
+    cases = _cases(table, units, site, n, raw.decimal_comma)
     has_case = np.zeros(n, dtype=bool)
     if len(cases):
         has_case[cases["valve"].to_numpy()] = True
@@ -271,34 +224,88 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
         cases = cases[~bad[cases["valve"].to_numpy()]].copy()
         cases["valve"] = remap[cases["valve"].to_numpy()]
         cases = cases.reset_index(drop=True)
-    return LineList(valves, cases, rejected, ignored, rows_total=n)
+    return LineList(valves, cases, rejected, ignored, rows_total=n, source=raw)
 
 
-def _columns(raw: pd.DataFrame) -> tuple[dict[str, int], dict[str, str], list[str]]:
-    known = set(NUMERIC) | set(TEXT) | {"p_atm"}
-    columns, units, ignored = {}, {}, []
-    for pos, header in enumerate(raw.columns):
+def _columns(raw: RawTable):
+    """Map the header to known columns; fold a long layout; refuse a file that lacks a required column.
+
+    Returns (table of known columns as cells, units per column, ignored headers with
+    suggestions, row numbers, early reasons per row).
+    """
+    names, units, ignored, seen = [], [], [], {}
+    for pos, header in enumerate(raw.header):
         name, unit = normalise_header(header)
+        if not unit and raw.units_row and pos < len(raw.units_row):
+            unit = raw.units_row[pos]
         if not name:
+            if any(str(r[pos]).strip() for r in raw.rows if r[pos] is not None):
+                ignored.append(f"column {_letter(pos)} has values but no header name (ignored)")
+            names.append("")
+            units.append("")
             continue
-        if name in columns:
-            raise InputError(f"column '{name}' appears twice in the header (columns {columns[name] + 1} "
-                             f"and {pos + 1}); keep one")
-        if name in known or CASE_COLUMN.match(name):
-            columns[name] = pos
-            units[name] = unit
-        else:
-            ignored.append(str(header)[:60])
-    if "tag" not in columns:
-        raise InputError("the line list has no 'tag' column; the header row must name the columns "
-                         "as ../shared/spec/linelist.md fixes them")
-    return columns, units, ignored
+        if name in seen:
+            raise InputError(f"column '{name}' appears twice in the header (columns {_letter(seen[name])} "
+                             f"and {_letter(pos)}); keep one")
+        seen[name] = pos
+        if not is_known_column(name):
+            ignored.append(f"'{str(header)[:60]}'{suggestion(name)}")
+            name = ""
+        names.append(name)
+        units.append(unit)
+    rows = [[("TRUE" if v else "FALSE") if isinstance(v, bool) else ("" if v is None else v) for v in r]
+            for r in raw.rows]
+    numbers = list(raw.row_numbers)
+    early: list[list[str]] = [[] for _ in rows]
+    if "case" in seen:
+        long_rows = len(rows)
+        names, units, rows, numbers, early = fold_long(names, units, rows, numbers)
+        raw.notes.append(f"long layout (a 'case' column): {long_rows} rows read as {len(rows)} valves")
+    elif any(n in CASE_FIELDS for n in names):
+        plain = [n for n in names if n in CASE_FIELDS]
+        raise InputError(f"column(s) {', '.join(plain)} have no case suffix and there is no 'case' column: "
+                         "give one row per valve with flow_max, p_in_max, ... or one row per valve and case "
+                         "with a 'case' column (docs/input.md)")
+    _require(names, ignored)
+    keep = [i for i, n in enumerate(names) if n]
+    table = pd.DataFrame({names[i]: [r[i] if i < len(r) else "" for r in rows] for i in keep}, dtype=object)
+    if not keep:
+        table = pd.DataFrame(index=range(len(rows)))
+    unit_of = {names[i]: units[i] for i in keep}
+    return table, unit_of, ignored, np.asarray(numbers, dtype=int), early
+
+
+REQUIRED = (("tag",), ("fluid",), ("valve_size",), ("rated_cv", "rated_kv"))
+
+
+def _require(names: list[str], ignored: list[str]) -> None:
+    """Refuse a file that lacks a column every row needs, naming it (and a near miss)."""
+    present = set(names)
+    missing = [" or ".join(group) for group in REQUIRED if not present & set(group)]
+    if not any(CASE_COLUMN.match(n) and n.startswith("flow_") for n in present):
+        missing.append("flow_<case> (for example flow_max)")
+    if not missing:
+        return
+    near = [s for s in ignored if "did you mean" in s]
+    hint = f"; the header has {', '.join(near[:5])}" if near else ""
+    raise InputError(f"the line list has no column {', '.join(missing)}{hint}. The header row must name the "
+                     "columns as docs/input.md lists them")
+
+
+def _letter(pos: int) -> str:
+    """A spreadsheet column letter for position 0, 1, ... (A, B, ..., AA)."""
+    out = ""
+    pos += 1
+    while pos:
+        pos, r = divmod(pos - 1, 26)
+        out = chr(65 + r) + out
+    return out
 
 
 def _text(table: pd.DataFrame, col: str) -> np.ndarray:
     if col not in table:
         return np.full(len(table), "", dtype=object)
-    return np.array([str(v).strip() for v in table[col].to_numpy(dtype=object)], dtype=object)
+    return np.array([clean_text(str(v)).strip() for v in table[col].to_numpy(dtype=object)], dtype=object)
 
 
 def _check_cell_length(table: pd.DataFrame, limits: Limits, reasons: _Reasons) -> None:
@@ -366,6 +373,27 @@ def _fluids(text, num, reasons: _Reasons, valves: pd.DataFrame) -> list[Fluid | 
     return fluids
 
 
+SERVICE_WORDS = {  # column: (accepted words, the default for a blank cell)
+    "intent": (("flashing", "choked"), ""),
+    "duty": (("continuous", "intermittent", "startup", "emergency"), "continuous"),
+    "criticality": (("high", "medium", "low"), "medium"),
+    "dissolved_gas": (("yes", "no"), "no"),
+}
+_SERVICE_SPELLINGS = {"start_up": "startup", "start-up": "startup", "y": "yes", "true": "yes", "n": "no",
+                      "false": "no", "med": "medium"}
+
+
+def _service(text, reasons: _Reasons, valves: pd.DataFrame) -> None:
+    """The service columns (docs/input.md, "Service"): a word from a short list, or blank for the default."""
+    for col, (words, default) in SERVICE_WORDS.items():
+        given = np.array([_SERVICE_SPELLINGS.get(w.lower().replace(" ", "_"), w.lower().replace(" ", "_"))
+                          for w in text[col]], dtype=object)
+        wrong = (given != "") & ~np.isin(given, words)
+        reasons.add(wrong, lambda i, col=col, words=words: (
+            f"column '{col}': '{_clip(text[col][i])}' is not one of {', '.join(words)} (or blank)"))
+        valves[col] = np.where(given == "", default, given)
+
+
 def _range(num, col, reasons, low=None, high=None, what="", low_inclusive=False, high_inclusive=True):
     v = num[col]
     finite = np.isfinite(v)
@@ -380,17 +408,14 @@ def _range(num, col, reasons, low=None, high=None, what="", low_inclusive=False,
 def _valve(text, num, reasons: _Reasons, valves: pd.DataFrame) -> None:
     n = len(valves)
     size = num["valve_size"]
-    reasons.add(~np.isfinite(size), "column 'valve_size' is blank; the valve size is needed")
+    reasons.add(~np.isfinite(size) & ~reasons.mentions("valve_size"), "column 'valve_size' is blank; the valve size is needed")
     _range(num, "valve_size", reasons, low=0.0, what="a size above 0")
     cv = np.where(np.isfinite(num["rated_cv"]), num["rated_cv"], num["rated_kv"] * 1.156)
     both_blank = ~np.isfinite(cv)
     reasons.add(both_blank, "columns 'rated_cv' and 'rated_kv' are both blank; one is needed")
     reasons.add(np.isfinite(cv) & (cv <= 0), lambda i: f"rated flow coefficient {cv[i]:g} (Cv) must be above 0")
     _range(num, "rangeability", reasons, low=1.0, what="an inherent rangeability above 1")
-    characteristic = np.array([c.lower().replace(" ", "_").replace("-", "_").replace("%", "percentage")
-                               or "equal_percentage" for c in text["characteristic"]], dtype=object)
-    characteristic = np.where(np.isin(characteristic, ["equal_percent", "eq_percentage", "=%", "ep"]),
-                              "equal_percentage", characteristic)
+    characteristic = np.array([normalise_characteristic(c) for c in text["characteristic"]], dtype=object)
     reasons.add(~np.isin(characteristic, CHARACTERISTICS),
                 lambda i: f"column 'characteristic': '{_clip(text['characteristic'][i])}' is not one of "
                           f"{', '.join(CHARACTERISTICS)}")
@@ -462,7 +487,20 @@ def _piping(text, num, reasons: _Reasons, valves: pd.DataFrame) -> None:
             _range(num, "pipe_out_wall", reasons, low=0.0, what="a wall thickness above 0")
 
 
-def _cases(table: pd.DataFrame, units: dict, site: np.ndarray, n: int) -> pd.DataFrame:
+def _bare_sizes(table: pd.DataFrame, units: dict, num: dict, reasons: _Reasons) -> None:
+    """A valve size with no unit anywhere and below BARE_SIZE_MIN_MM is almost surely inches: refuse it."""
+    if "valve_size" not in table or units.get("valve_size"):
+        return
+    bare = pd.to_numeric(table["valve_size"], errors="coerce").to_numpy(float)
+    small = np.isfinite(bare) & (bare > 0) & (bare < BARE_SIZE_MIN_MM)
+    num["valve_size"][small] = np.nan
+    reasons.add(small, lambda i: (
+        f"column 'valve_size': {bare[i]:g} has no unit and would be {bare[i]:g} mm, below the smallest "
+        f"body ({BARE_SIZE_MIN_MM:g} mm): probably inches; write '{bare[i]:g} in' (or 'NPS {bare[i]:g}', "
+        "or the header 'valve_size [in]')"))
+
+
+def _cases(table: pd.DataFrame, units: dict, site: np.ndarray, n: int, decimal_comma: bool = False) -> pd.DataFrame:
     names: dict[str, dict[str, str]] = {}
     for col in table.columns:
         m = CASE_COLUMN.match(col)
@@ -482,7 +520,7 @@ def _cases(table: pd.DataFrame, units: dict, site: np.ndarray, n: int) -> pd.Dat
                     data["std_t"] = data["std_p"] = np.full(n, np.nan)
                 continue
             filled |= table[col].astype(str).str.strip().to_numpy() != ""
-            parsed = parse_column(table[col], kind, units.get(col, ""), default, col, site)
+            parsed = parse_column(table[col], kind, units.get(col, ""), default, col, site, decimal_comma)
             errors = np.where((errors == "") & (parsed.errors != ""), parsed.errors, errors)
             data[prefix] = parsed.values
             if prefix == "flow":

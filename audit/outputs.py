@@ -1,4 +1,4 @@
-"""Machine-readable outputs, per ../shared/spec/outputs.md, and safe writing.
+"""Machine-readable outputs, as docs/outputs.md documents them, and safe writing.
 
 Numbers are plain floats in the unit the column name ends with; booleans
 are true/false.  Text cells that a spreadsheet would take for a formula
@@ -23,8 +23,10 @@ RESULTS_COLUMNS = ["tag", "case", "phase", "cv_required", "cv_ratio", "travel_pc
                    "cavitation", "flashing", "vapour_fraction_out", "velocity_out_m_s", "mach_out", "noise_dba",
                    "findings"]
 EXTRA_RESULTS = ["area", "flow_kg_h", "p_in_kpa", "p_out_kpa", "t_in_c", "kv_required", "fp", "flp", "xtp",
-                 "fr", "rev", "ff", "y", "xfz_source", "noise_note", "case_note"]
-VALVES_COLUMNS = ["rank", "tag", "area", "service", "worst_case", "choke_ratio_max", "severity", "findings"]
+                 "fr", "rev", "ff", "y", "xfz_source", "noise_note", "velocity_in_m_s", "velocity_line_in_m_s",
+                 "gain_below", "flow_mult_full_travel", "choked_at_full_travel", "case_note"]
+VALVES_COLUMNS = ["rank", "tag", "area", "service", "worst_case", "choke_ratio_max", "capacity_margin",
+                  "travel_min_pct", "travel_max_pct", "gain_min", "gain_max", "severity", "findings"]
 REJECTED_COLUMNS = ["row", "tag", "reason"]
 
 # = and @ always start a formula; + and - do when a letter, quote or bracket follows
@@ -58,7 +60,11 @@ def results_table(cases: pd.DataFrame) -> pd.DataFrame:
         "p_out_kpa": num("p_out", 1e-3), "t_in_c": num("t_in", 1.0, -273.15), "kv_required": num("kv"),
         "fp": num("fp"), "flp": num("flp"), "xtp": num("xtp"), "fr": num("fr"), "rev": num("rev"),
         "ff": num("ff"), "y": num("y"), "xfz_source": cases.get("xfz_source", ""),
-        "noise_note": cases.get("noise_note", ""), "case_note": note,
+        "noise_note": cases.get("noise_note", ""), "velocity_in_m_s": num("velocity_in_m_s"),
+        "velocity_line_in_m_s": num("velocity_line_in_m_s"), "gain_below": num("gain_below"),
+        "flow_mult_full_travel": num("flow_mult_full_travel"),
+        "choked_at_full_travel": cases.get("choked_at_full_travel", pd.Series(False, index=cases.index)).astype(bool),
+        "case_note": note,
     })
     return out[RESULTS_COLUMNS + EXTRA_RESULTS]
 
@@ -77,22 +83,51 @@ def to_csv_text(frame: pd.DataFrame) -> str:
     return safe.to_csv(index=False, lineterminator="\n")
 
 
+# Every file a run or a comparison may publish: a new set replaces the old one whole, so a file of a
+# format not written this time is removed rather than left beside outputs of another audit.
+AUDIT_FILES = ("results.csv", "valves.csv", "rejected.csv", "audit_info.json", "audit.json", "report.html",
+               "report.pdf", "worklist.xlsx", "history.csv")
+
+
+def check_writable(target: Path) -> None:
+    """Refuse, before any work, an output folder that cannot be written (OutputError)."""
+    target = Path(target)
+    try:
+        target.mkdir(parents=True, exist_ok=True)
+        probe = Path(tempfile.mkstemp(prefix=".valve-audit-probe-", dir=target)[1])
+        probe.unlink()
+    except OSError as exc:
+        raise OutputError(f"cannot write into the output folder '{target}': {exc.strerror or exc}") from None
+
+
 @contextmanager
-def staged_folder(target: Path):
-    """Yield a temporary folder; on success its files replace those in ``target``.
+def staged_folder(target: Path, published: tuple[str, ...] = AUDIT_FILES):
+    """Yield a temporary folder; on success its files replace the published set in ``target``.
 
     A run killed before the end leaves ``target`` as it was.  The move is
-    one rename per file, each atomic on the same file system.
+    one rename per file, each atomic on the same file system; published
+    files the new set does not hold are removed after it is in place.
     """
     target = Path(target)
-    target.mkdir(parents=True, exist_ok=True)
-    stage = Path(tempfile.mkdtemp(prefix=".valve-audit-", dir=target))
+    try:
+        target.mkdir(parents=True, exist_ok=True)
+        stage = Path(tempfile.mkdtemp(prefix=".valve-audit-", dir=target))
+    except OSError as exc:
+        raise OutputError(f"cannot write into '{target}': {exc.strerror or exc}") from None
     try:
         yield stage
+        new = {item.name for item in stage.iterdir()}
         for item in sorted(stage.iterdir()):
             os.replace(item, target / item.name)
+        for name in published:
+            if name not in new and (target / name).is_file():
+                (target / name).unlink()
     finally:
         shutil.rmtree(stage, ignore_errors=True)
+
+
+class OutputError(Exception):
+    """The output folder cannot be written (a file in its place, read-only, full)."""
 
 
 def write_csvs(folder: Path, audit) -> None:

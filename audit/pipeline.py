@@ -4,13 +4,16 @@ from __future__ import annotations
 import datetime as _dt
 import hashlib
 import json
+import math
+import time
+from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 
 from . import OUTPUT_FORMAT_VERSION, __version__
 from .engine import Audit, Options, compute
-from .loader import Limits, load_linelist
-from .outputs import staged_folder, write_csvs
+from .loader import LineList, Limits, load_linelist
+from .outputs import check_writable, staged_folder, write_csvs
 
 
 @dataclass
@@ -26,6 +29,14 @@ class Summary:
                 f"{self.rejected} rows rejected; {self.findings} findings")
 
 
+class OptionMismatch(Exception):
+    """An option names something the line list does not hold (a case, an area)."""
+
+    def __init__(self, message: str, usage: bool):
+        super().__init__(message)
+        self.usage = usage  # True: a command-line value (exit 2); False: a file the user gave (exit 3)
+
+
 def sha256(path: Path) -> str:
     digest = hashlib.sha256()
     with open(path, "rb") as fh:
@@ -34,11 +45,16 @@ def sha256(path: Path) -> str:
     return digest.hexdigest()
 
 
-def run_metadata(linelist: Path, options: Options, rules_file: Path | None, trims_file: Path | None) -> dict:
-    """What a reader needs to trace a report back to its input; lives in the report, not the CSVs."""
+def run_metadata(ll: LineList, options: Options, rules_file: Path | None, trims_file: Path | None) -> dict:
+    """What a reader needs to trace a report back to its input; lives in the report, not the CSVs.
+
+    The input's digest is of the bytes that were read and audited, not of the file as it is now.
+    """
+    source = ll.source
     return {
-        "input_file": linelist.name,
-        "input_sha256": sha256(linelist),
+        "input_file": source.source if source else "",
+        "input_sheet": source.sheet if source else "",
+        "input_sha256": source.digest if source else "",
         "date": _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"),
         "tool_version": __version__,
         "output_format_version": OUTPUT_FORMAT_VERSION,
@@ -53,41 +69,65 @@ def run_metadata(linelist: Path, options: Options, rules_file: Path | None, trim
     }
 
 
-def run_audit(linelist: Path, options: Options, limits: Limits | None = None, sheet: str | None = None,
-              trims_file: Path | None = None) -> Audit:
-    ll = load_linelist(linelist, sheet=sheet, p_atm=options.p_atm, limits=limits)
-    audit = compute(ll, options)
+def check_options(ll: LineList, options: Options) -> None:
+    """Refuse what-if options that name cases or areas the line list does not hold."""
+    cases = sorted(set(ll.cases["case"])) if len(ll.cases) else []
+    unknown = [c for c in options.scale_cases if c not in cases]
+    if unknown:
+        raise OptionMismatch(f"--scale-cases: no case {', '.join(repr(c) for c in unknown)} in the line list; "
+                             f"its cases are {', '.join(cases) or '(none)'}", usage=True)
+    areas = sorted(set(ll.valves["area"])) if len(ll.valves) else []
+    unknown = [a for a in options.area_scale if a not in areas]
+    if unknown:
+        raise OptionMismatch(f"area scaling file: no area {', '.join(repr(a) for a in unknown[:5])} in the line "
+                             f"list; its areas are {', '.join(repr(a) for a in areas) or '(none)'}", usage=False)
+
+
+def run_audit(linelist, options: Options, limits: Limits | None = None, sheet: str | None = None,
+              trims_file: Path | None = None, progress=None) -> Audit:
+    progress = progress or _Progress(True)
+    with progress.stage("Reading the line list"):
+        ll = load_linelist(linelist, sheet=sheet, p_atm=options.p_atm, limits=limits)
+    check_options(ll, options)
+    progress.report_input(ll)
+    with progress.stage(f"Auditing {len(ll.valves)} valves ({len(ll.cases)} cases)"):
+        audit = compute(ll, options)
     if trims_file:
         from .trims import add_trim_alternatives
-        add_trim_alternatives(audit, trims_file)
+        with progress.stage("Re-screening against the trims file"):
+            add_trim_alternatives(audit, trims_file)
     return audit
 
 
-def run_files(linelist: Path, out: Path, options: Options, limits: Limits | None = None, sheet: str | None = None,
+def run_files(linelist, out: Path, options: Options, limits: Limits | None = None, sheet: str | None = None,
               formats: set[str] | None = None, rules_file: Path | None = None, trims_file: Path | None = None,
               quiet: bool = False) -> Summary:
-    """Audit ``linelist`` and write the chosen outputs into ``out``; return the counts."""
+    """Audit ``linelist`` (a path, or '-' for standard input) and write the chosen outputs into ``out``."""
     formats = formats or {"csv", "html", "pdf", "xlsx"}
+    check_writable(Path(out))
     progress = _Progress(quiet)
-    progress.say(f"Reading {linelist.name}")
-    audit = run_audit(Path(linelist), options, limits, sheet, trims_file)
+    audit = run_audit(linelist, options, limits, sheet, trims_file, progress)
     summary = Summary(rows=audit.linelist.rows_total, audited=len(audit.valves), rejected=len(audit.rejected),
                       cases=len(audit.cases), findings=len(audit.findings))
-    meta = run_metadata(Path(linelist), options, rules_file, trims_file)
+    meta = run_metadata(audit.linelist, options, rules_file, trims_file)
     with staged_folder(Path(out)) as stage:
-        progress.say("Writing CSV outputs")
-        write_csvs(stage, audit)
-        info = {k: meta[k] for k in ("output_format_version", "tool_version", "input_file", "input_sha256",
-                                     "rules_file_sha256", "flow_scale", "scale_cases", "area_scale")}
-        # No date here: the same input and options give the same bytes (the date is in the report).
-        (stage / "audit_info.json").write_text(json.dumps(info, indent=1, sort_keys=True) + "\n", encoding="utf-8")
-        if "json" in formats:
-            (stage / "audit.json").write_text(_json(audit, meta), encoding="utf-8")
+        with progress.stage("Writing the CSV outputs"):
+            write_csvs(stage, audit)
+            info = {k: meta[k] for k in ("output_format_version", "tool_version", "input_file", "input_sheet",
+                                         "input_sha256", "rules_file_sha256", "flow_scale", "scale_cases",
+                                         "area_scale")}
+            # No date here: the same input and options give the same bytes (the date is in the report).
+            (stage / "audit_info.json").write_text(json.dumps(info, indent=1, sort_keys=True) + "\n",
+                                                   encoding="utf-8")
+            if "json" in formats:
+                (stage / "audit.json").write_text(_json(audit, meta), encoding="utf-8")
         wanted = formats & {"html", "pdf", "xlsx"}
         if wanted:
             from .report import write_reports
             write_reports(stage, audit, meta, wanted, progress=progress)
+        written = sorted(p.name for p in stage.iterdir())
     progress.say(summary.text())
+    progress.say(f"Outputs in {Path(out).resolve()}: {', '.join(written)}")
     return summary
 
 
@@ -96,21 +136,50 @@ def _json(audit: Audit, meta: dict) -> str:
     valves = audit.valves[VALVES_COLUMNS].to_dict(orient="records")
     results = results_table(audit.cases).to_dict(orient="records")
     rejected = audit.rejected.to_dict(orient="records")
-    clean = lambda rows: [{k: (None if isinstance(v, float) and v != v else v) for k, v in r.items()} for r in rows]  # noqa: E731
+
+    def clean(rows):  # JSON has no NaN or Infinity: null
+        return [{k: (None if isinstance(v, float) and not math.isfinite(v) else v) for k, v in r.items()}
+                for r in rows]
     return json.dumps({"metadata": meta, "valves": clean(valves), "results": clean(results),
-                       "rejected": clean(rejected)}, indent=1, default=str)
+                       "rejected": clean(rejected)}, indent=1, default=str, allow_nan=False)
 
 
 class _Progress:
-    """Progress lines on a terminal; silent under --quiet or when output is not a terminal."""
+    """Stages with their elapsed time on the terminal (stderr); silent under --quiet."""
 
     def __init__(self, quiet: bool):
-        self.quiet = quiet
         self.console = None
+        self.started = time.perf_counter()
         if not quiet:
             from rich.console import Console
-            self.console = Console(stderr=True)
+            self.console = Console(stderr=True, highlight=False, soft_wrap=True)  # a line per message, unwrapped
 
     def say(self, message: str) -> None:
         if self.console is not None:
             self.console.print(message, markup=False, highlight=False)
+
+    @contextmanager
+    def stage(self, title: str):
+        """A stage: a spinner while it runs on a terminal, then one line with its time."""
+        if self.console is None:
+            yield
+            return
+        t0 = time.perf_counter()
+        if self.console.is_terminal:
+            with self.console.status(title + " ..."):
+                yield
+        else:
+            yield
+        self.say(f"{title}: {time.perf_counter() - t0:.1f} s")
+
+    def report_input(self, ll: LineList) -> None:
+        """What was read, and the columns that were not: a misspelt column should not pass unseen."""
+        source = ll.source
+        if source is None:
+            return
+        where = f"{source.source}" + (f", sheet '{source.sheet}'" if source.sheet else "")
+        self.say(f"Read {where}: {ll.rows_total} rows")
+        for note in source.notes:
+            self.say(f"  note: {note}")
+        if ll.ignored_columns:
+            self.say(f"  columns not read (not in docs/input.md): {'; '.join(ll.ignored_columns)}")

@@ -1,4 +1,9 @@
-"""Ranking of audited valves: most at risk of choking first, ties by severity."""
+"""Ranking of audited valves by consequence, and one sentence per finding family per valve.
+
+Rank (docs/outputs.md, `valves.csv`): severity first (urgent before plan before watch ...),
+then the line list's `criticality` (high before medium before low), then the capacity margin
+(smallest first: the valve nearest to running out of capacity), then the tag.
+"""
 from __future__ import annotations
 
 import numpy as np
@@ -6,46 +11,85 @@ import pandas as pd
 
 from rules.base import Severity
 
+CRITICALITY_ORDER = {"high": 0, "medium": 1, "low": 2}
 
-def _join_by(keys: np.ndarray, texts: np.ndarray, sep: str) -> pd.Series:
-    """Join texts per key, keeping their order (a dict pass: far cheaper than groupby-apply)."""
-    out: dict[int, list[str]] = {}
-    for k, t in zip(keys.tolist(), texts.tolist()):
-        out.setdefault(k, []).append(t)
-    return pd.Series({k: sep.join(v) for k, v in out.items()}, dtype=object)
+
+def family_summary(cases: pd.DataFrame, findings: pd.DataFrame) -> pd.DataFrame:
+    """One row per (valve, finding family): the worst finding, its case, and the other cases where it fires.
+
+    Worst = highest severity, then the largest ``value`` the rule gave (choke ratio, level,
+    velocity over its limit, ...), then the earliest case.  Columns: valve, family, code,
+    severity, case, also (other case names, in case order), sentence (the worst finding's
+    sentence, with "Also at case ..." where the family fires in other cases too, naming the level
+    of another case where it is not the worst's).
+    """
+    cols = ["valve", "family", "code", "severity", "case", "also", "sentence"]
+    if not len(findings):
+        return pd.DataFrame(columns=cols)
+    row = findings["case_row"].to_numpy(int)
+    f = pd.DataFrame({
+        "valve": cases["valve"].to_numpy(int)[row], "family": findings["family"].to_numpy(dtype=object),
+        "code": findings["code"].to_numpy(dtype=object), "severity": findings["severity"].to_numpy(int),
+        "value": np.nan_to_num(findings["value"].to_numpy(float), nan=-np.inf),
+        "case": cases["case"].to_numpy(dtype=object)[row], "order": cases["case_order"].to_numpy(int)[row],
+        "sentence": findings["sentence"].to_numpy(dtype=object)})
+    f = f.sort_values(["valve", "family", "severity", "value", "order"], ascending=[True, True, False, False, True],
+                      kind="stable")
+    worst = f.drop_duplicates(["valve", "family"]).set_index(["valve", "family"])
+    # Each other case once, at its own worst level; the level is named where it differs from the worst's.
+    per_case = f.drop_duplicates(["valve", "family", "case"]).sort_values("order", kind="stable")
+    cases_by = per_case.groupby(["valve", "family"], sort=False)[["case", "severity"]] \
+        .apply(lambda g: list(zip(g["case"], g["severity"])))
+    also = [[c if s == worst.at[key, "severity"] else f"{c} ({Severity(int(s)).label})"
+             for c, s in cases_by.loc[key] if c != worst.at[key, "case"]] for key in worst.index]
+    out = worst.reset_index()[["valve", "family", "code", "severity", "case"]]
+    out["also"] = [", ".join(a) for a in also]
+    out["sentence"] = [s if not a else f"{s} Also at case {', '.join(a)}."
+                       for s, a in zip(worst["sentence"].to_numpy(dtype=object), also)]
+    return out.sort_values(["valve", "severity"], ascending=[True, False], kind="stable").reset_index(drop=True)[cols]
+
+
+def _per_valve(cases: pd.DataFrame, n: int) -> pd.DataFrame:
+    """Per-valve figures over the sized cases: worst case, margins, travel and gain ranges."""
+    sized = cases[cases["converged"].to_numpy(bool)]
+    g = sized.groupby("valve")
+    out = pd.DataFrame(index=range(n))
+    out["choke_ratio_max"] = g["choke_ratio"].max()
+    out["capacity_margin"] = g["flow_mult_full_travel"].min() if "flow_mult_full_travel" in sized else np.nan
+    out["travel_min_pct"] = g["travel_pct"].min()
+    out["travel_max_pct"] = g["travel_pct"].max()
+    gain = sized["gain_below"] if "gain_below" in sized else pd.Series(np.nan, index=sized.index)
+    out["gain_min"] = gain.groupby(sized["valve"]).min()
+    out["gain_max"] = gain.groupby(sized["valve"]).max()
+    margin = sized.get("flow_mult_full_travel", pd.Series(np.nan, index=sized.index)).to_numpy(float)
+    worst = sized.assign(_m=np.where(np.isfinite(margin), margin, np.inf)) \
+        .sort_values(["valve", "_m", "case_order"], kind="stable").drop_duplicates("valve")
+    out["worst_case"] = pd.Series(worst["case"].to_numpy(), index=worst["valve"].to_numpy())
+    out["worst_case"] = out["worst_case"].fillna("")
+    return out
 
 
 def rank_valves(valves: pd.DataFrame, cases: pd.DataFrame, findings: pd.DataFrame) -> pd.DataFrame:
-    """One row per audited valve with its worst case, severity and finding sentences.
-
-    Rank 1 has the highest choke_ratio over its cases; equal ratios are
-    ordered by the worst severity, then by tag, so the order is stable.
-    Valves with no sized case (every case failed) come last.
-    """
-    v = cases["valve"].to_numpy(int)
-    ratio = cases["choke_ratio"].to_numpy(float)
-    order = pd.DataFrame({"valve": v, "ratio": np.where(np.isfinite(ratio), ratio, -np.inf),
-                          "case": cases["case"].to_numpy(dtype=object)})
-    worst = order.sort_values(["valve", "ratio"], ascending=[True, False], kind="stable").drop_duplicates("valve")
-    worst = worst.set_index("valve").reindex(range(len(valves)))
-    out = valves[["tag", "area", "service"]].copy()
-    out["worst_case"] = np.where(np.isfinite(worst["ratio"]), worst["case"], "")
-    out["choke_ratio_max"] = np.where(np.isfinite(worst["ratio"]), worst["ratio"], np.nan)
-    f = findings.copy()
-    f["valve"] = v[f["case_row"].to_numpy(int)] if len(f) else pd.Series(dtype=int)
-    f["case_order"] = cases["case_order"].to_numpy()[f["case_row"].to_numpy(int)] if len(f) else 0
-    f = f.sort_values(["valve", "severity", "case_order"], ascending=[True, False, True], kind="stable")
-    per_code = f.drop_duplicates(["valve", "code"])
-    sentences = _join_by(per_code["valve"].to_numpy(int), per_code["sentence"].to_numpy(dtype=object), " ")
-    codes = _join_by(per_code["valve"].to_numpy(int), per_code["code"].to_numpy(dtype=object), ";")
-    worst_sev = f.groupby("valve")["severity"].max()
-    sev = worst_sev.reindex(range(len(valves))).fillna(0).astype(int).to_numpy()
+    """One row per audited valve with its rank, severity, margins and finding sentences (see module docstring)."""
+    n = len(valves)
+    out = valves[["tag", "area", "service", "criticality"]].copy()
+    out = pd.concat([out, _per_valve(cases, n)], axis=1)
+    families = family_summary(cases, findings)
+    sev = families.groupby("valve")["severity"].max().reindex(range(n)).fillna(0).astype(int).to_numpy()
     out["severity_level"] = sev
     out["severity"] = [Severity(s).label for s in sev]
-    out["findings"] = sentences.reindex(range(len(valves))).fillna("").to_numpy()
-    out["finding_codes"] = codes.reindex(range(len(valves))).fillna("").to_numpy()
-    out["valve"] = np.arange(len(valves))
-    key = out.assign(_r=np.nan_to_num(out["choke_ratio_max"].to_numpy(float), nan=-np.inf))
-    key = key.sort_values(["_r", "severity_level", "tag"], ascending=[False, False, True], kind="stable")
-    key.insert(0, "rank", np.arange(1, len(key) + 1))
-    return key.drop(columns="_r").reset_index(drop=True)
+    out["findings"] = families.groupby("valve")["sentence"].agg(" ".join).reindex(range(n)).fillna("").to_numpy()
+    if len(findings):
+        v = cases["valve"].to_numpy(int)[findings["case_row"].to_numpy(int)]
+        codes = pd.Series(findings["code"].to_numpy(dtype=object)).groupby(v).agg(lambda c: ";".join(dict.fromkeys(c)))
+        out["finding_codes"] = codes.reindex(range(n)).fillna("").to_numpy()
+    else:
+        out["finding_codes"] = ""
+    out["valve"] = np.arange(n)
+    margin = out["capacity_margin"].to_numpy(float)
+    key = out.assign(_crit=out["criticality"].map(CRITICALITY_ORDER).fillna(1).to_numpy(int),
+                     _margin=np.where(np.isfinite(margin), margin, np.inf))
+    key = key.sort_values(["severity_level", "_crit", "_margin", "tag"], ascending=[False, True, True, True],
+                          kind="stable")
+    key.insert(0, "rank", np.arange(1, n + 1))
+    return key.drop(columns=["_crit", "_margin"]).reset_index(drop=True)

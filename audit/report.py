@@ -7,16 +7,18 @@ can make it read the disk or the network.
 """
 from __future__ import annotations
 
+import contextlib
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 from jinja2 import Environment, PackageLoader, select_autoescape
 
-from rules import all_rules, effective_thresholds
+from rules import all_rules, effective_thresholds, severity
 from rules.base import Severity
 
 from .outputs import neutralise
+from .ranking import family_summary
 
 SEVERITY_MEANING = {
     Severity.URGENT: "the valve cannot do its job, or people may be exposed: look now",
@@ -127,7 +129,8 @@ def build_context(audit, meta: dict, plots: bool = True, progress=None) -> dict:
                       "total": len(group)})
     rows = [{"rank": int(v.rank), "tag": v.tag, "area": v.area, "service": v.service, "worst_case": v.worst_case,
              "ratio": _fmt(v.choke_ratio_max), "severity": v.severity, "mark": SEVERITY_MARK[int(v.severity_level)],
-             "codes": v.finding_codes.replace(";", ", ")} for v in valves.itertuples()]
+             "codes": v.finding_codes.replace(";", ", "), "criticality": v.criticality,
+             "margin": _fmt(v.capacity_margin)} for v in valves.itertuples()]
     details = _details(audit, plots, progress)
     thresholds = effective_thresholds(audit.options.thresholds)
     trows = [{"rule": r.code, "name": t.name, "value": _fmt(thresholds[r.code.lower()][t.name], 4), "unit": t.unit,
@@ -166,11 +169,26 @@ def build_context(audit, meta: dict, plots: bool = True, progress=None) -> dict:
         "counts": {"rows": audit.linelist.rows_total, "audited": len(valves), "rejected": len(audit.rejected),
                    "cases": len(cases)},
         "severities": severities, "areas": areas, "top": rows[:10], "valves": rows, "details": details,
+        "choking": choking_view(audit), "grades": severity.TABLE, "adjustments": severity.ADJUSTMENTS,
         "fleet_svg": fleet_svg(valves["choke_ratio_max"].to_numpy(float), list(valves["tag"])) if len(valves) else "",
         "rejected": audit.rejected.to_dict(orient="records"),
         "ignored": ", ".join(audit.linelist.ignored_columns), "methods": methods, "thresholds": trows,
         "typical": typical, "not_covered": NOT_COVERED, "scaled": scaled, "meta_rows": meta_rows,
     }
+
+
+def choking_view(audit) -> list[dict]:
+    """Valves choked at full travel in some case, smallest capacity margin first."""
+    cases, valves = audit.cases, audit.valves
+    if "choked_at_full_travel" not in cases or not len(valves):
+        return []
+    hit = cases[cases["choked_at_full_travel"].to_numpy(bool)]
+    names = hit.groupby("valve")["case"].agg(lambda c: ", ".join(c))
+    chosen = valves[valves["valve"].isin(names.index)]
+    chosen = chosen.iloc[np.argsort(chosen["capacity_margin"].to_numpy(float), kind="stable")]
+    return [{"tag": v.tag, "service": v.service, "margin": _fmt(v.capacity_margin), "ratio": _fmt(v.choke_ratio_max),
+             "cases": names[v.valve], "severity": v.severity, "mark": SEVERITY_MARK[int(v.severity_level)]}
+            for v in chosen.itertuples()]
 
 
 PLOT_COLUMNS = ["case", "phase", "p_in", "t_in", "rho", "pv", "pc", "molar_mass", "k", "valve_size", "pipe_in_id",
@@ -214,15 +232,14 @@ def _details(audit, plots: bool, progress) -> list[dict]:
     ll = audit.linelist.valves
     if not len(findings):
         return []
-    f = findings.assign(valve=cases["valve"].to_numpy()[findings["case_row"].to_numpy(int)])
-    by_valve = {k: g for k, g in f.groupby("valve")}
+    by_valve = {k: g for k, g in family_summary(cases, findings).groupby("valve")}
     case_groups = {k: g for k, g in cases.groupby("valve")}
     out, jobs, slots = [], [], []
     for v in valves.itertuples():
         vid = int(v.valve)
         if vid not in by_valve:
             continue
-        fv = by_valve[vid].sort_values(["severity"], ascending=False, kind="stable")
+        fv = by_valve[vid]  # one line per finding family, worst first (ranking.family_summary)
         vc = case_groups[vid]
         lv = ll.iloc[vid]
         sized = np.isfinite(vc["cv"].to_numpy(float))
@@ -241,11 +258,15 @@ def _details(audit, plots: bool, progress) -> list[dict]:
             "case_names": list(vc["case"]), "table": _case_table(vc), "svg": "",
         })
     if jobs:
-        if progress is not None:
-            progress.say(f"Drawing plots for {len(jobs)} valves")
-        for slot, svg in zip(slots, draw_plots(jobs)):
-            out[slot]["svg"] = svg
+        with _stage(progress, f"Drawing plots for {len(jobs)} valves"):
+            for slot, svg in zip(slots, draw_plots(jobs)):
+                out[slot]["svg"] = svg
     return out
+
+
+def _stage(progress, title: str):
+    """The progress display's stage, or nothing when there is none."""
+    return progress.stage(title) if progress is not None else contextlib.nullcontext()
 
 
 def render_html(context: dict) -> str:
@@ -348,7 +369,7 @@ WORKLIST_COLUMNS = ["rank", "tag", "area", "service", "severity", "worst_case", 
 def worklist_table(audit) -> pd.DataFrame:
     """One row per valve with findings, ranked, with what a planner sorts and filters on."""
     cases, valves = audit.cases, audit.valves
-    per = cases.groupby("valve").agg(travel_max_pct=("travel_pct", "max"), cv_required_max=("cv", "max"))
+    per = cases.groupby("valve").agg(cv_required_max=("cv", "max"))
     out = valves.join(per, on="valve")
     out["rated_cv"] = audit.linelist.valves["rated_cv"].to_numpy()[out["valve"].to_numpy(int)]
     out = out[out["finding_codes"] != ""]
@@ -396,8 +417,8 @@ def write_reports(folder: Path, audit, meta: dict, formats: set[str], progress=N
         if "html" in formats:
             (folder / "report.html").write_text(html, encoding="utf-8")
         if "pdf" in formats:
-            if progress is not None:
-                progress.say("Writing the PDF report")
-            render_pdf(html, folder / "report.pdf")
+            with _stage(progress, "Writing the PDF report"):
+                render_pdf(html, folder / "report.pdf")
     if "xlsx" in formats:
-        write_worklist(folder / "worklist.xlsx", audit)
+        with _stage(progress, "Writing the work list"):
+            write_worklist(folder / "worklist.xlsx", audit)

@@ -16,7 +16,9 @@ import pandas as pd
 
 from rules.base import Severity
 
-from .loader import InputError, read_table, normalise_header, Limits
+from .characteristic import CHARACTERISTICS, normalise_characteristic
+from .pipes import nominal_dn
+from .reader import InputError, Limits, normalise_header, read_source
 from .units import parse_column
 
 TRIM_COLUMNS = ("valve_size", "rated_cv", "characteristic", "fl", "xt", "fd", "xfz")
@@ -25,12 +27,13 @@ CLEARS_BELOW = Severity.WATCH  # a trim clears a valve when no finding of WATCH 
 
 def read_trims(path: Path) -> pd.DataFrame:
     """The trims file as SI columns; a bad row makes the whole file an input error (it is short)."""
-    raw = read_table(Path(path), None, Limits())
-    names = {normalise_header(h)[0]: (pos, normalise_header(h)[1]) for pos, h in enumerate(raw.columns)}
+    raw = read_source(Path(path), None, Limits())
+    names = {normalise_header(h)[0]: (pos, normalise_header(h)[1]) for pos, h in enumerate(raw.header)}
     missing = [c for c in TRIM_COLUMNS[:-1] if c not in names]
     if missing:
         raise InputError(f"trims file '{Path(path).name}': missing column(s) {', '.join(missing)}")
-    p_atm = np.full(len(raw), 101325.0)
+    cells = pd.DataFrame(raw.rows, columns=range(len(raw.header)), dtype=object)
+    p_atm = np.full(len(cells), 101325.0)
     out = pd.DataFrame()
     kinds = {"valve_size": ("length", "mm"), "rated_cv": ("dimensionless", ""), "fl": ("dimensionless", ""),
              "xt": ("dimensionless", ""), "fd": ("dimensionless", ""), "xfz": ("dimensionless", "")}
@@ -39,12 +42,18 @@ def read_trims(path: Path) -> pd.DataFrame:
             out[col] = np.nan
             continue
         pos, unit = names[col]
-        parsed = parse_column(raw.iloc[:, pos].astype(str), kind, unit, default, col, p_atm)
+        parsed = parse_column(cells[pos].astype(str), kind, unit, default, col, p_atm)
         bad = np.flatnonzero(parsed.errors != "")
         if bad.size:
-            raise InputError(f"trims file row {bad[0] + 2}: {parsed.errors[bad[0]]}")
+            raise InputError(f"trims file row {raw.row_numbers[bad[0]]}: {parsed.errors[bad[0]]}")
         out[col] = parsed.values
-    out["characteristic"] = raw.iloc[:, names["characteristic"][0]].astype(str).str.strip().str.lower()
+    written = cells[names["characteristic"][0]].astype(str).str.strip()
+    out["characteristic"] = [normalise_characteristic(c) for c in written]
+    wrong = np.flatnonzero(~np.isin(out["characteristic"], CHARACTERISTICS))
+    if wrong.size:
+        raise InputError(f"trims file row {raw.row_numbers[wrong[0]]}: column 'characteristic': "
+                         f"'{written[wrong[0]][:40]}' is not one of {', '.join(CHARACTERISTICS)}")
+    out["nominal_dn"] = nominal_dn(out["valve_size"].to_numpy(float))
     return out.dropna(subset=["valve_size", "rated_cv"]).sort_values("rated_cv", kind="stable").reset_index(drop=True)
 
 
@@ -58,7 +67,9 @@ def candidate_linelist(ll, trims: pd.DataFrame, valve_ids: np.ndarray):
     from .loader import LineList
 
     sizes = ll.valves["valve_size"].to_numpy(float)
-    pairs = [(v, t) for v in valve_ids for t in np.flatnonzero(np.isclose(trims["valve_size"], sizes[v], rtol=1e-3))]
+    # Bodies and trims meet by nominal size: a trim listed as '1 in' (25.4 mm) fits a DN25 body (25 mm).
+    body_dn, trim_dn = nominal_dn(sizes), trims["nominal_dn"].to_numpy(float)
+    pairs = [(v, t) for v in valve_ids for t in np.flatnonzero(trim_dn == body_dn[v])]
     if not pairs:
         return None, []
     vi = np.array([p[0] for p in pairs])

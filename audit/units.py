@@ -148,15 +148,48 @@ _THOUSANDS_COMMA = re.compile(r"^\s*[+-]?\d{1,3}(,\d{3})+(\.\d*)?")
 _DECIMAL_COMMA = re.compile(r"^(\s*[+-]?\d+),(\d+)")
 
 
-def split_number(text: str) -> tuple[float | None, str, str]:
+_NOMINAL_PREFIX = re.compile(r"^\s*(DN|NPS)\s*([0-9.,/\- ]+?)\s*$", re.I)
+_FRACTION = re.compile(r"^\s*(?:(\d+)[\s\-]+)?(\d+)\s*/\s*(\d+)\s*(.*?)\s*$")
+_DOT_THOUSANDS = re.compile(r"^\s*[+-]?\d{1,3}(\.\d{3})+(,\d*)?(?!\d)")
+
+
+def _nominal(s: str) -> tuple[str, str] | None:
+    """'DN80' -> ('80', 'mm'); 'NPS 3' -> ('3', 'in'): a nominal size written with its system's prefix."""
+    m = _NOMINAL_PREFIX.match(s)
+    if not m:
+        return None
+    return m.group(2).strip(), ("mm" if m.group(1).upper() == "DN" else "in")
+
+
+def split_number(text: str, decimal_comma: bool = False) -> tuple[float | None, str, str]:
     """Split a cell such as ``'12,5 barg'`` into (12.5, 'barg', '').
 
     Returns (value, unit, problem).  A decimal comma is accepted; a comma
     followed by exactly three digits is refused as ambiguous (1,500 might be
     1500 or 1.5), because a silent guess could be off by a factor of 1000.
+    With ``decimal_comma`` (a semicolon-separated export) commas are decimal
+    marks, and a dot followed by exactly three digits is the ambiguous case.
+    Nominal sizes read as lengths: 'DN80' (80 mm), 'NPS 3' and '3"' (3 in),
+    '1-1/2 in' (1.5 in).
     """
     s = text.translate(_MINUS_SIGNS).strip()
-    if "," in s:
+    nominal = _nominal(s)
+    if nominal:
+        s = f"{nominal[0]} {nominal[1]}"
+    fraction = _FRACTION.match(s)
+    if fraction:
+        whole, num, den, unit = fraction.groups()
+        if int(den) == 0:
+            return None, "", "is not a number (a fraction over zero)"
+        return (int(whole or 0) + int(num) / int(den)), unit, ""
+    if decimal_comma:
+        if _DOT_THOUSANDS.match(s) and "," in s:
+            s = s.replace(".", "")
+        elif _DOT_THOUSANDS.match(s):
+            return None, "", ("is ambiguous in a file with decimal commas (a thousands dot or a decimal "
+                              "point?); write it without the dot")
+        s = s.replace(",", ".", 1)
+    elif "," in s:
         if "." in s and _THOUSANDS_COMMA.match(s):
             s = s.replace(",", "")
         else:
@@ -170,6 +203,19 @@ def split_number(text: str) -> tuple[float | None, str, str]:
     return float(m.group(1)), m.group(2), ""
 
 
+@lru_cache(maxsize=1)
+def _all_unit_spellings() -> frozenset[str]:
+    names = set(_GAUGE) | set(_STD_FLOW) | set(_VOLUME_FLOW) | set(_MASS_FLOW)
+    for _, table in KINDS.values():
+        names |= set(table)
+    return frozenset(names - {"1", "-"}) | {"-"}
+
+
+def is_unit_text(text: str) -> bool:
+    """True where a cell holds only a unit this module accepts ('barg', '[kg/h]', 'degC'): a units row."""
+    return _key(str(text).strip().strip("[]")) in _all_unit_spellings()
+
+
 @dataclass
 class ParsedColumn:
     """A column converted to SI; ``errors`` holds a message per bad row (else '')."""
@@ -181,13 +227,14 @@ class ParsedColumn:
 
 
 def parse_column(cells: pd.Series, kind: str, header_unit: str, default_unit: str,
-                 column: str, p_atm: np.ndarray) -> ParsedColumn:
+                 column: str, p_atm: np.ndarray, decimal_comma: bool = False) -> ParsedColumn:
     """Convert one line-list column of text cells to SI.
 
     cells: the raw text (blank = not given, becomes NaN with no error).
     kind: a key of ``KINDS`` or 'flow'.  header_unit: the unit in square
     brackets after the header, or ''.  default_unit: the contract's default
     for the column.  p_atm: site atmospheric pressure per row [Pa].
+    decimal_comma: the file writes decimals with commas (see ``split_number``).
     A cell unit wins over the header unit, which wins over the default.
     """
     n = len(cells)
@@ -201,6 +248,8 @@ def parse_column(cells: pd.Series, kind: str, header_unit: str, default_unit: st
     # Fast path: plain numbers take the header/default unit, converted as one array.
     plain = pd.to_numeric(cells, errors="coerce").to_numpy(dtype=float)
     is_plain = np.isfinite(plain)
+    if decimal_comma:  # '1.200' is not plainly 1.2 in a file that writes decimals with commas
+        is_plain &= ~cells.astype(str).str.contains(".", regex=False).to_numpy()
     if is_plain.any():
         if fallback_rule is None:
             bad = (f"column '{column}': unknown unit '{_clip(fallback)}' in the header; "
@@ -218,7 +267,7 @@ def parse_column(cells: pd.Series, kind: str, header_unit: str, default_unit: st
         text = str(raw)
         if not text.strip():
             continue
-        number, unit, problem = split_number(text)
+        number, unit, problem = split_number(text, decimal_comma)
         if problem:
             errors[i] = f"column '{column}': value '{_clip(text)}' {problem}"
             continue

@@ -50,7 +50,7 @@ def _measure_report(path: str, out: str) -> dict:
 
     options = Options()
     audit = run_audit(Path(path), options)
-    meta = run_metadata(Path(path), options, None, None)
+    meta = run_metadata(audit.linelist, options, None, None)
     t0 = time.perf_counter()
     context = build_context(audit, meta)
     html = render_html(context)

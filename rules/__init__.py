@@ -13,7 +13,7 @@ import pandas as pd
 
 from .base import Rule, Severity, combine
 
-_NOT_RULES = {"base"}
+_NOT_RULES = {"base", "severity"}
 
 
 @lru_cache(maxsize=1)
@@ -45,17 +45,35 @@ def effective_thresholds(overrides: dict | None) -> dict[str, dict[str, float]]:
             raise ThresholdError(f"rule '{code}' does not exist; rules are {', '.join(sorted(rules))}")
         if not isinstance(values, dict):
             raise ThresholdError(f"rule '{code}': expected a table of thresholds")
+        by_name = {t.name: t for t in rules[key].thresholds}
         for name, value in values.items():
             if name not in out[key]:
                 raise ThresholdError(f"rule '{code}' has no threshold '{name}'; it has {', '.join(out[key])}")
-            if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value):
-                raise ThresholdError(f"rule '{code}', threshold '{name}': {value!r} is not a number")
-            out[key][name] = float(value)
+            try:
+                number = float(value) if not isinstance(value, bool) and isinstance(value, (int, float)) else None
+            except OverflowError:
+                number = None
+            if number is None or not np.isfinite(number):
+                shown = "a huge integer" if isinstance(value, int) and value.bit_length() > 1000 else str(value)[:40]
+                raise ThresholdError(f"[{code}] {name} = {shown}: not a finite number")
+            problem = by_name[name].check(number)
+            if problem:
+                raise ThresholdError(f"[{code}] {name} = {number:g} is out of range: {problem}")
+            out[key][name] = number
+        for a, b in rules[key].ordered:
+            if not out[key][a] < out[key][b]:
+                raise ThresholdError(f"[{code}] {a} = {out[key][a]:g} must be below {b} = {out[key][b]:g}")
     return out
 
 
 def apply_rules(cases: pd.DataFrame, overrides: dict | None = None) -> pd.DataFrame:
-    """Run every rule in order; add their columns to ``cases``; return all findings."""
+    """Run every rule in order; add their columns to ``cases``; return all findings.
+
+    Each finding carries its ``family`` and its level from the severity table,
+    moved by the valve's intent and duty (``rules.severity.adjust_for_service``).
+    """
+    from .severity import adjust_for_service, family_of
+
     thresholds = effective_thresholds(overrides)
     found = []
     for rule in all_rules():
@@ -63,7 +81,8 @@ def apply_rules(cases: pd.DataFrame, overrides: dict | None = None) -> pd.DataFr
         for name, values in result.columns.items():
             cases[name] = values
         found.append(result.findings)
-    allf = combine(*found)
+    allf = adjust_for_service(combine(*found), cases, thresholds)
+    allf["family"] = [family_of(c) for c in allf["code"]]
     ordered = allf.sort_values(["case_row", "severity"], ascending=[True, False], kind="stable")
     per_case: dict[int, dict[str, None]] = {}
     for row, code in zip(ordered["case_row"].tolist(), ordered["code"].tolist()):

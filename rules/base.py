@@ -32,12 +32,21 @@ class Severity(IntEnum):
 
 @dataclass(frozen=True)
 class Threshold:
-    """A documented default that a site file can override."""
+    """A documented default that a site file can override, within [low, high]."""
     name: str
     default: float
     unit: str
     source: str      # "IEC 60534-...", or "common practice"
     meaning: str
+    low: float = 0.0
+    high: float = float("inf")
+
+    def check(self, value: float) -> str:
+        """'' if ``value`` is allowed, else what is expected."""
+        if self.low <= value <= self.high:
+            return ""
+        top = "" if self.high == float("inf") else f" and at most {self.high:g}"
+        return f"expected at least {self.low:g}{top} ({self.unit or 'a ratio'})"
 
 
 @dataclass
@@ -54,26 +63,37 @@ class Rule:
     thresholds: tuple[Threshold, ...]
     evaluate: Callable[[pd.DataFrame, dict], RuleResult]
     description: str = ""
+    ordered: tuple[tuple[str, str], ...] = ()  # (a, b): threshold a must stay below threshold b
 
     def defaults(self) -> dict[str, float]:
         return {t.name: t.default for t in self.thresholds}
 
 
-FINDING_COLUMNS = ["case_row", "code", "severity", "sentence"]
+FINDING_COLUMNS = ["case_row", "code", "severity", "sentence", "value"]
 
 
 def empty_findings() -> pd.DataFrame:
     return pd.DataFrame({"case_row": pd.Series(dtype=int), "code": pd.Series(dtype=object),
-                         "severity": pd.Series(dtype=int), "sentence": pd.Series(dtype=object)})
+                         "severity": pd.Series(dtype=int), "sentence": pd.Series(dtype=object),
+                         "value": pd.Series(dtype=float)})
 
 
-def findings(mask: np.ndarray, code: str, severity: Severity, sentence: Callable[[int], str]) -> pd.DataFrame:
-    """Findings for the case rows where ``mask`` holds; ``sentence(i)`` writes row i's sentence."""
+def findings(mask: np.ndarray, code: str, sentence: Callable[[int], str],
+             value: np.ndarray | None = None) -> pd.DataFrame:
+    """Findings for the case rows where ``mask`` holds; ``sentence(i)`` writes row i's sentence.
+
+    The level comes from the severity table (``rules.severity``), the one place that grades.
+    value: per case row, how bad the finding is there (larger is worse); it picks the case a
+    valve's sentence quotes.  Without it, the earliest case is quoted.
+    """
+    from .severity import severity_of
+
     rows = np.flatnonzero(mask)
     if rows.size == 0:
         return empty_findings()
-    return pd.DataFrame({"case_row": rows, "code": code, "severity": int(severity),
-                         "sentence": [sentence(i) for i in rows]})
+    worst = np.asarray(value, float)[rows] if value is not None else np.full(rows.size, np.nan)
+    return pd.DataFrame({"case_row": rows, "code": code, "severity": int(severity_of(code)),
+                         "sentence": [sentence(i) for i in rows], "value": worst})
 
 
 def combine(*frames: pd.DataFrame) -> pd.DataFrame:

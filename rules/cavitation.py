@@ -11,7 +11,8 @@ the Cv form is the one that reproduces the standard's worked example).
 
 Levels: none (xF < xFzp1), incipient, developed (from our screening split
 of the cavitating range, a threshold below), choked (xF >= (FLP/FP)^2),
-flashing (p2 <= pv).
+flashing (p2 <= pv); not_assessed where the row says the liquid carries
+dissolved gas (outgassing is outside these methods, and a finding says so).
 """
 from __future__ import annotations
 
@@ -19,7 +20,7 @@ import numpy as np
 
 from audit.noise_liquid import estimate_xfz, xfz_at_inlet
 
-from .base import Rule, RuleResult, Severity, Threshold, col, combine, findings, text, valid
+from .base import Rule, RuleResult, Threshold, col, combine, findings, text, valid
 
 def levels(xf, xfzp1, x_choke, flashing, developed_share):
     """Cavitation level per case from xF and its boundaries."""
@@ -45,6 +46,9 @@ def evaluate(cases, th) -> RuleResult:
     x_choke = (col(cases, "flp") / col(cases, "fp")) ** 2
     flashing = cases["flashing"].to_numpy(bool)
     level = np.where(liquid, levels(xf, xfzp1, x_choke, flashing, th["developed_share"]), "")
+    # Dissolved gas comes out of solution on letdown: neither cavitation nor flashing of a pure liquid.
+    degassing = liquid & (text(cases, "dissolved_gas") == "yes")
+    level = np.where(degassing & (level != "none"), "not_assessed", level)
     name = text(cases, "case")
 
     def sentence(i, what):
@@ -55,11 +59,15 @@ def evaluate(cases, th) -> RuleResult:
         columns={"xf": xf, "sigma": sigma, "xfz": xfz, "xfzp1": xfzp1, "xfz_source": source,
                  "cavitation": level},
         findings=combine(
-            findings(level == "incipient", "CAV_INCIPIENT", Severity.WATCH, lambda i: sentence(i, "incipient")),
-            findings(level == "developed", "CAV_DEVELOPED", Severity.PLAN,
-                     lambda i: sentence(i, "developed") + " Expect trim damage and noise."),
-            findings(level == "choked", "CAV_CHOKED", Severity.PLAN,
-                     lambda i: sentence(i, "choked") + " Expect heavy damage downstream of the seat."),
+            findings(level == "incipient", "CAV_INCIPIENT", lambda i: sentence(i, "incipient"), value=xf),
+            findings(level == "developed", "CAV_DEVELOPED",
+                     lambda i: sentence(i, "developed") + " Expect trim damage and noise.", value=xf),
+            findings(level == "choked", "CAV_CHOKED", lambda i: sentence(i, "choked") + (
+                f" dp {dp[i] / 1e3:.0f} kPa: expect heavy damage downstream of the seat."), value=dp),
+            findings(degassing, "DISSOLVED_GAS", lambda i: (
+                f"Dissolved gas at case {name[i]} (letdown from {p1[i] / 1e5:.3g} to {p2[i] / 1e5:.3g} bar(a)): gas "
+                "coming out of solution is neither cavitation nor flashing of a pure liquid, so those results are "
+                "not given; check outgassing flow, outlet velocity and erosion by another method."), value=dp),
         ))
 
 
@@ -67,7 +75,9 @@ RULE = Rule(
     code="cavitation", title="Cavitation", order=20, evaluate=evaluate,
     thresholds=(
         Threshold("developed_share", 0.5, "share of the span xFzp1..(FLP/FP)^2", "common practice",
-                  "where in the cavitating range cavitation counts as developed rather than incipient"),
+                  "where in the cavitating range cavitation counts as developed rather than incipient", high=1.0),
+        Threshold("urgent_dp_kpa", 1000.0, "kPa", "common practice",
+                  "choked cavitation with this pressure drop or more, in continuous duty, is urgent"),
     ),
     description="xF against xFz (given or estimated, IEC 60534-8-4) and (FLP/FP)^2",
 )

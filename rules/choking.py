@@ -7,7 +7,7 @@ little room for more throughput.
 """
 from __future__ import annotations
 
-from .base import Rule, RuleResult, Severity, Threshold, bar, col, combine, findings, text, valid
+from .base import Rule, RuleResult, Threshold, bar, col, combine, findings, text, valid
 
 
 def evaluate(cases, th) -> RuleResult:
@@ -32,13 +32,13 @@ def evaluate(cases, th) -> RuleResult:
     return RuleResult(
         columns={"choked": ok & (ratio >= 1.0)},
         findings=combine(
-            findings(choked, "CHOKED", Severity.PLAN, lambda i: (
+            findings(choked, "CHOKED", lambda i: (
                 f"Choked at case {name[i]} (choke ratio {ratio[i]:.2f}): a lower outlet pressure will not "
                 f"raise the flow; {'dp' if not gas[i] else 'x'} is past the limit of "
                 f"{(dp_ch[i] / 1e3) if not gas[i] else col(cases, 'x_choked')[i]:.3g}"
-                f"{' kPa' if not gas[i] else ''}.")),
-            findings(near, "CHOKE_NEAR", Severity.WATCH, lambda i: (
-                f"Near choking at case {name[i]} (choke ratio {ratio[i]:.2f}): {headroom(i)}.")),
+                f"{' kPa' if not gas[i] else ''}."), value=ratio),
+            findings(near, "CHOKE_NEAR", lambda i: (
+                f"Near choking at case {name[i]} (choke ratio {ratio[i]:.2f}): {headroom(i)}."), value=ratio),
         ))
 
 
@@ -46,9 +46,10 @@ RULE = Rule(
     code="choking", title="Choking margin", order=10, evaluate=evaluate,
     thresholds=(
         Threshold("watch", 0.8, "choke ratio", "common practice",
-                  "choke ratio from which a case is reported as near choking"),
+                  "choke ratio from which a case is reported as near choking", high=1.0),
         Threshold("choked", 1.0, "choke ratio", "IEC 60534-2-1 (definition of choked flow)",
-                  "choke ratio at which the flow is choked"),
+                  "choke ratio at which the flow is choked", low=0.5, high=1.0),
     ),
+    ordered=(("watch", "choked"),),
     description="choke_ratio against a watch level and 1.0, with the headroom left",
 )

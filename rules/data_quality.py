@@ -6,7 +6,7 @@ coefficient could not be found.
 """
 from __future__ import annotations
 
-from .base import Rule, RuleResult, Severity, combine, findings, text
+from .base import Rule, RuleResult, combine, findings, text
 
 
 def evaluate(cases, th) -> RuleResult:
@@ -17,14 +17,14 @@ def evaluate(cases, th) -> RuleResult:
     name = text(cases, "case")
     first = ~cases.duplicated("valve").to_numpy()  # one note per valve, on its first case
     return RuleResult(findings=combine(
-        findings(err != "", "CASE_INVALID", Severity.WATCH,
+        findings(err != "", "CASE_INVALID",
                  lambda i: f"Case {name[i]} could not be audited: {err[i]}."),
-        findings(failed, "NOT_CONVERGED", Severity.PLAN, lambda i: (
+        findings(failed, "NOT_CONVERGED", lambda i: (
             f"Case {name[i]}: no flow coefficient meets this case (the sizing did not converge to 0.1 %); "
             "the reducers or laminar flow limit the capacity of this body, or the data are wrong.")),
-        findings(first & (typical != ""), "TYPICAL_FACTORS", Severity.NOTE, lambda i: (
+        findings(first & (typical != ""), "TYPICAL_FACTORS", lambda i: (
             f"Typical factors for the valve style were used for {typical[i]}; the trim's own data would be better.")),
-        findings(first & (overridden != ""), "PROPERTIES_OVERRIDDEN", Severity.NOTE, lambda i: (
+        findings(first & (overridden != ""), "PROPERTIES_OVERRIDDEN", lambda i: (
             f"Fluid properties taken from the line list instead of CoolProp: {overridden[i]}.")),
     ))
 

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .base import Rule, RuleResult, Severity, bar, col, combine, findings, text, valid
+from .base import Rule, RuleResult, bar, col, combine, findings, text, valid
 
 
 def evaluate(cases, th) -> RuleResult:
@@ -38,11 +38,11 @@ def evaluate(cases, th) -> RuleResult:
     return RuleResult(
         columns={"flashing": flashing, "vapour_fraction_out": quality},
         findings=combine(
-            findings(flashing, "FLASHING", Severity.PLAN, sentence),
-            findings(condensing, "CONDENSING", Severity.WATCH, lambda i: (
+            findings(flashing, "FLASHING", sentence, value=quality),
+            findings(condensing, "CONDENSING", lambda i: (
                 f"Gas partly condenses across the valve at case {name[i]}: {(1 - gas_quality[i]) * 100:.1f} % of the "
                 f"mass leaves as liquid at {bar(p2[i])}; the gas methods assume a dry outlet, so treat the "
-                "velocity and choking figures as rough and check for liquid slugs and erosion."))))
+                "velocity and choking figures as rough and check for liquid slugs and erosion."), value=1 - gas_quality)))
 
 
 RULE = Rule(code="flashing", title="Flashing", order=15, evaluate=evaluate, thresholds=(),

@@ -15,7 +15,7 @@ import numpy as np
 
 from audit import noise_gas, noise_liquid, pipes
 
-from .base import (Rule, RuleResult, Severity, Threshold, col, combine, findings, limit_source, per_valve, text,
+from .base import (Rule, RuleResult, Threshold, col, combine, findings, limit_source, per_valve, text,
                    valid)
 
 
@@ -126,13 +126,13 @@ def evaluate(cases, th) -> RuleResult:
     return RuleResult(
         columns={"noise_dba": level, "noise_note": note, "noise_limit_dba": limit},
         findings=combine(
-            findings(severe, "NOISE_SEVERE", Severity.URGENT, lambda i: said(i, "far above") + (
-                ": hearing protection and a noise fix are needed before people work near it.")),
-            findings(loud, "NOISE", Severity.PLAN, lambda i: said(i, "above") + (
-                ": plan a quieter trim, silencer or acoustic lagging, and mark the area meanwhile.")),
-            findings(near, "NOISE_NEAR", Severity.WATCH, lambda i: said(i, "within "
-                     f"{th['watch_margin_db']:.0f} dB of") + ", about the uncertainty of the prediction."),
-            findings(missing_data, "NOISE_NO_DATA", Severity.NOTE, lambda i: (
+            findings(severe, "NOISE_SEVERE", lambda i: said(i, "far above") + (
+                ": hearing protection and a noise fix are needed before people work near it."), value=level),
+            findings(loud, "NOISE", lambda i: said(i, "above") + (
+                ": plan a quieter trim, silencer or acoustic lagging, and mark the area meanwhile."), value=level),
+            findings(near, "NOISE_NEAR", lambda i: said(i, "within "
+                     f"{th['watch_margin_db']:.0f} dB of") + ", about the uncertainty of the prediction.", value=level),
+            findings(missing_data, "NOISE_NO_DATA", lambda i: (
                 f"Noise not predicted at case {name[i]}: {note[i]}.")),
         ))
 
@@ -141,17 +141,18 @@ RULE = Rule(
     code="noise", title="Noise", order=50, evaluate=evaluate,
     thresholds=(
         Threshold("limit_dba", 85.0, "dBA", "common practice",
-                  "sound pressure level limit 1 m from the pipe (occupational exposure action level)"),
+                  "sound pressure level limit 1 m from the pipe (occupational exposure action level)", low=30.0,
+                  high=140.0),
         Threshold("watch_margin_db", 5.0, "dB", "common practice",
                   "a level this close below the limit is worth watching (the methods' uncertainty)"),
         Threshold("urgent_over_db", 15.0, "dB", "common practice",
                   "a level this far above the limit is urgent"),
         Threshold("an_liquid", noise_liquid.AN_GLOBE, "", "IEC 60534-8-4",
-                  "valve correction of the liquid acoustic efficiency, An (-4.6: globe valves)"),
+                  "valve correction of the liquid acoustic efficiency, An (-4.6: globe valves)", low=-7.0, high=-1.0),
         Threshold("an_gas", noise_gas.AN_GLOBE, "", "IEC 60534-8-3",
-                  "valve correction of the gas acoustic efficiency, An (-3.8: globe valve, cage trim)"),
+                  "valve correction of the gas acoustic efficiency, An (-3.8: globe valve, cage trim)", low=-7.0, high=-1.0),
         Threshold("stp_gas", noise_gas.STP_GLOBE, "", "IEC 60534-8-3",
-                  "peak Strouhal number of the gas trim noise, Stp (0.2: globe valve, cage trim)"),
+                  "peak Strouhal number of the gas trim noise, Stp (0.2: globe valve, cage trim)", low=0.01, high=2.0),
     ),
     description="A-weighted level 1 m from the downstream pipe: IEC 60534-8-3 (gas), IEC 60534-8-4 (liquid)",
 )

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .base import Rule, RuleResult, Severity, Threshold, col, findings, text, valid
+from .base import Rule, RuleResult, Threshold, col, findings, text, valid
 
 
 def evaluate(cases, th) -> RuleResult:
@@ -20,14 +20,14 @@ def evaluate(cases, th) -> RuleResult:
     big = ok & np.isfinite(observed) & (np.abs(gap) > th["gap_pct"])
     return RuleResult(
         columns={"travel_observed_pct": observed},
-        findings=findings(big, "TRAVEL_MISMATCH", Severity.WATCH, lambda i: (
+        findings=findings(big, "TRAVEL_MISMATCH", lambda i: (
             f"Observed travel {observed[i]:.0f} % at case {name[i]} differs from the predicted {predicted[i]:.0f} % "
-            f"by {abs(gap[i]):.0f} points: check for trim wear, the rated Cv on record, or the process data.")))
+            f"by {abs(gap[i]):.0f} points: check for trim wear, the rated Cv on record, or the process data."), value=np.abs(gap)))
 
 
 RULE = Rule(
     code="observed_travel", title="Observed travel", order=70, evaluate=evaluate,
     thresholds=(Threshold("gap_pct", 15.0, "% travel", "common practice",
-                          "largest accepted gap between observed and predicted travel"),),
+                          "largest accepted gap between observed and predicted travel", high=100.0),),
     description="historian travel against the travel the sizing predicts",
 )

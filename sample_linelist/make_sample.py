@@ -4,12 +4,14 @@ Scenario (invented): the "Fenmoor demonstration works", a small gas
 processing and utilities unit whose feed is to rise.  Every name, number
 and service here is made up for the demo; none describes a real plant.
 
-The list exercises every column of ../shared/spec/linelist.md: gauge and
+The list exercises every column of docs/input.md: gauge and
 absolute pressures, US and SI units in headers and cells, volumetric,
 mass and standard gas flows, a fourth case (startup), CoolProp fluids, a
 mixture and custom fluids, typical factors by valve style, schedules and
 inside diameters, historian travel and per-valve limits.  Some valves were
-built to choke, cavitate or flash at their max case (see BUILT_TO).
+built to choke, cavitate or flash at their max case (see BUILT_TO); others
+to show what the service columns (intent, duty, criticality, dissolved gas)
+and the controllability and body checks do (see BUILT_FOR).
 
 Run:  python sample_linelist/make_sample.py
 """
@@ -29,7 +31,7 @@ COLUMNS = [
     "flow_startup", "p_in_startup", "p_out_startup", "t_in_startup",
     "valve_size", "rated_cv", "rated_kv", "characteristic", "rangeability", "fl", "xt", "fd", "valve_style", "xfz",
     "pipe_in_id", "pipe_out_id", "pipe_in_size", "pipe_in_schedule", "pipe_out_size", "pipe_out_schedule",
-    "pipe_out_wall", "noise_limit [dBA]", "velocity_limit [m/s]",
+    "pipe_out_wall", "noise_limit [dBA]", "velocity_limit [m/s]", "noise_an", "noise_stp", "intent", "duty", "criticality", "dissolved_gas",
 ]
 
 # What the sample was built to show at the max case (tests check the audit finds it).
@@ -37,6 +39,21 @@ BUILT_TO = {
     "choke": ["FV-3107", "PV-4102", "HV-5101"],
     "cavitate": ["FV-2104", "LV-2201"],
     "flash": ["LV-1203", "LV-1204"],
+}
+# What the later additions were built to show (tests/test_ranking.py checks each).
+BUILT_FOR = {
+    "over_capacity": "FV-2106",            # cannot pass its max flow: first among the urgent valves
+    "designed_flash": "LV-1205",           # intent = flashing: flashing is a note ...
+    "flash_twin": "LV-1206",               # ... where its otherwise equal twin without intent is plan
+    "designed_choke": "HV-5101",           # intent = choked, emergency duty
+    "startup_noise": "PV-5104",            # a vent used at start-up: noise is not urgent
+    "dissolved_gas": "LV-3111",            # rich amine letdown
+    "below_range": "FV-7105",              # smallest case below rated Cv / R
+    "oversized": "LV-1202",                # never opens past 20 %
+    "capacity_margin": "FV-4107",          # a little more flow reaches full travel
+    "line_velocity": "FV-2107",            # fast in the line and at the body inlet
+    "body_small": "FV-6106",               # a 1 in body in a 4 in line
+    "cv_implausible": "FV-6107",           # rated Cv far beyond the body size
 }
 
 
@@ -73,6 +90,13 @@ V += [
           {"min": case("1.5 m3/h", "12 barg", "1.0 barg", 178), "norm": case("2.5 m3/h", "12 barg", "0.6 barg", 182),
            "max": case("3.5 m3/h", "12 barg", "0.2 barg", 185)}, 25, rated_cv=8, fl=0.9, fd=0.46, xt=0.72,
           pipe_out_size=2, pipe_out_schedule="80"),
+    # Two equal hot-condensate letdowns into a flash drum; only the first says it is built to flash.
+    valve("LV-1205", "100 Condensate", "Condensate flash drum A inlet (designed to flash)", "Water",
+          {"min": case("2 m3/h", "5 barg", "0.6 barg", 155), "max": case("3 m3/h", "5 barg", "0.5 barg", 156)},
+          "3 in", rated_cv=30, fl=0.9, fd=0.46, xt=0.72, intent="flashing", criticality="low"),
+    valve("LV-1206", "100 Condensate", "Condensate flash drum B inlet", "Water",
+          {"min": case("2 m3/h", "5 barg", "0.6 barg", 155), "max": case("3 m3/h", "5 barg", "0.5 barg", 156)},
+          "3 in", rated_cv=30, fl=0.9, fd=0.46, xt=0.72, criticality="low"),
     valve("TV-1301", "100 Condensate", "Hot water return temperature", "Water",
           {"min": case("60 gpm", "70 psig", "45 psig", "180 degF"), "norm": case("110 gpm", "70 psig", "42 psig", "185 degF"),
            "max": case("150 gpm", "68 psig", "40 psig", "190 degF")}, "3 in", rated_cv=95, fl=0.9, fd=0.46, xt=0.72,
@@ -90,7 +114,8 @@ V += [
     valve("FV-2103", "200 Utilities water", "Boiler feed water to steam drum", "Water",
           {"min": case("20 t/h", "62 barg", "48 barg", 105), "norm": case("38 t/h", "62 barg", "47 barg", 105),
            "max": case("52 t/h", "61 barg", "46 barg", 106)}, 80, rated_cv=60, fl=0.9, fd=0.46, xt=0.72,
-          travel_max=92, pipe_in_size=4, pipe_in_schedule="160", pipe_out_size=4, pipe_out_schedule="160"),
+          travel_max=92, pipe_in_size=4, pipe_in_schedule="160", pipe_out_size=4, pipe_out_schedule="160",
+          criticality="high"),
     valve("FV-2104", "200 Utilities water", "Feed pump minimum-flow recirculation", "Water",
           {"min": case("6 t/h", "95 barg", "1.5 barg", 105), "norm": case("9 t/h", "95 barg", "1.5 barg", 105),
            "max": case("12 t/h", "96 barg", "1.2 barg", 106)}, 40, rated_cv=5.5, fl=0.92, fd=0.35, xt=0.75,
@@ -101,6 +126,14 @@ V += [
     valve("LV-2201", "200 Utilities water", "Deaerator level (feed from condensate tank)", "Water",
           {"min": case(8, 9.5, 1.3, 60), "norm": case(14, 9.5, 1.25, 62), "max": case(19, 9.6, 1.2, 65)}, 40,
           rated_cv=22, fl=0.8, fd=0.46, xt=0.7),
+    valve("FV-2106", "200 Utilities water", "Boiler feed water to new economiser (after the feed rise)", "Water",
+          {"min": case("15 t/h", "62 barg", "50 barg", 105), "norm": case("25 t/h", "62 barg", "49 barg", 105),
+           "max": case("36 t/h", "61 barg", "48 barg", 106)}, 50, rated_cv=9, fl=0.9, fd=0.46, xt=0.72,
+          criticality="high"),
+    valve("FV-2107", "200 Utilities water", "Cooling water to new product cooler", "Water",
+          {"min": case(90, 6.0, 4.6, 28), "norm": case(150, 6.0, 4.2, 30), "max": case(200, 5.9, 3.9, 32)}, 80,
+          rated_cv=250, fl=0.85, fd=0.42, xt=0.6, characteristic="linear", pipe_in_size=4, pipe_in_schedule="40",
+          pipe_out_size=4, pipe_out_schedule="40"),
     valve("TV-2301", "200 Utilities water", "Glycol-water chiller bypass", "custom",
           {"min": case(15, 6.0, 4.8, 5), "norm": case(30, 6.0, 4.5, 5), "max": case(42, 5.9, 4.3, 6)}, 80,
           rated_cv=120, phase="liquid", **{"density [kg/m3]": 1045, "vapour_pressure [kPa]": 1.2,
@@ -116,7 +149,8 @@ V += [
     valve("PV-3102", "300 Gas processing", "Fuel gas letdown to burner header", "Methane",
           {"min": case("800 kg/h", "40 barg", "6 barg", 25), "norm": case("1500 kg/h", "40 barg", "6 barg", 25),
            "max": case("2300 kg/h", "39 barg", "6.5 barg", 20)}, 50, rated_cv=30, fl=0.9, xt=0.72, fd=0.46,
-          pipe_out_size=4, pipe_out_schedule="40", pipe_out_wall="0.25 in", noise_limit=85),
+          pipe_out_size=4, pipe_out_schedule="40", pipe_out_wall="0.25 in", noise_limit=85,
+          noise_an=-4.0, noise_stp=0.25),  # the valve maker's acoustic data
     valve("FV-3103", "300 Gas processing", "Nitrogen purge to dryer beds", "Nitrogen",
           {"min": case("200 Nm3/h", "8 barg", "5 barg", 20), "norm": case("450 Nm3/h", "8 barg", "5 barg", 20),
            "max": case("650 Nm3/h", "8 barg", "4.8 barg", 20)}, 25, rated_cv=9, fl=0.9, xt=0.72, fd=0.46),
@@ -134,7 +168,7 @@ V += [
           {"min": case("20000 kg/h", 72, 30, 45), "norm": case("35000 kg/h", 72, 28, 45),
            "max": case("60000 kg/h", 72, 26, 48), "startup": case("55000 kg/h", 60, 25, 35)}, 150, rated_cv=300,
           fl=0.85, xt=0.6, fd=0.42, pipe_in_size=8, pipe_in_schedule="80", pipe_out_size=10, pipe_out_schedule="80",
-          noise_limit=90),
+          noise_limit=90, duty="startup"),
     valve("HV-3108", "300 Gas processing", "Dryer depressurising", "Methane",
           {"max": case("9000 kg/h", 50, 12, 25)}, 50, rated_cv=75, valve_style="ball_segmented",
           pipe_out_size=4, pipe_out_schedule="40"),
@@ -145,6 +179,11 @@ V += [
           {"min": case("300 kg/h", "6 barg", "0.8 barg", 55), "norm": case("600 kg/h", "6 barg", "0.8 barg", 55),
            "max": case("850 kg/h", "6 barg", "0.9 barg", 58)}, 50, rated_cv=35, phase="gas", molar_mass=22.5,
           k=1.28, z=0.98, **{"viscosity [cP]": 0.012}, fl=0.9, xt=0.72, fd=0.46),
+    valve("LV-3111", "300 Gas processing", "Rich amine letdown to flash drum (custom amine)", "custom",
+          {"min": case(20, "68 barg", "5 barg", 60), "norm": case(30, "68 barg", "5 barg", 62),
+           "max": case(38, "68 barg", "5.2 barg", 65)}, 50, rated_cv=12, phase="liquid",
+          **{"density [kg/m3]": 1030, "vapour_pressure [kPa]": 25, "critical_pressure": "20000 kPa",
+             "viscosity [cP]": 2.2}, fl=0.9, fd=0.46, xt=0.72, dissolved_gas="yes"),
 ]
 # Area 400: NGL fractionation
 V += [
@@ -169,6 +208,9 @@ V += [
     valve("LV-4106", "400 NGL fractionation", "Ammonia refrigerant receiver level", "Ammonia",
           {"min": case("2000 kg/h", "14 barg", "3 barg", 35), "norm": case("3500 kg/h", "14 barg", "2.8 barg", 35),
            "max": case("5000 kg/h", "14 barg", "2.5 barg", 36)}, 25, rated_cv=6.5, fl=0.9, fd=0.46, xt=0.72),
+    valve("FV-4107", "400 NGL fractionation", "Propane product to storage (after the feed rise)", "Propane",
+          {"min": case(20, 20, 15, 20), "norm": case(30, 20, 14.5, 20), "max": case(38, 20, 14.2, 21)}, 50,
+          rated_cv=13.5, fl=0.9, fd=0.46, xt=0.72),
 ]
 # Area 500: steam and flare
 V += [
@@ -183,14 +225,14 @@ V += [
           pipe_out_size=10, pipe_out_schedule="40"),
     valve("HV-5101", "500 Steam and flare", "Flare knockout drum vent to flare", "Methane[0.9]&Ethane[0.07]&Propane[0.03]",
           {"max": case("30000 kg/h", 30, 1.8, 30)}, 100, rated_cv=260, valve_style="ball_full_bore",
-          pipe_out_size=12, pipe_out_schedule="STD", noise_limit=95),
+          pipe_out_size=12, pipe_out_schedule="STD", noise_limit=95, intent="choked", duty="emergency"),
     valve("TV-5103", "500 Steam and flare", "Desuperheater spray water", "Water",
           {"min": case("0.3 m3/h", "60 barg", "12 barg", 110), "norm": case("0.8 m3/h", "60 barg", "12 barg", 110),
            "max": case("1.4 m3/h", "60 barg", "11.5 barg", 112)}, 25, rated_cv=1.6, fl=0.9, fd=0.46, xt=0.72,
           xfz=0.3),
     valve("PV-5104", "500 Steam and flare", "LP steam vent to atmosphere", "Water",
           {"max": case("4 t/h", "3.5 barg", "0.05 barg", 160)}, 100, rated_cv=200, phase="steam",
-          valve_style="globe_contoured_flow_to_open", pipe_out_size=6, pipe_out_schedule="40"),
+          valve_style="globe_contoured_flow_to_open", pipe_out_size=6, pipe_out_schedule="40", duty="startup"),
     valve("FV-5105", "500 Steam and flare", "Steam to tracing header", "Water",
           {"min": case("300 kg/h", "10 barg", "4 barg", 184), "norm": case("600 kg/h", "10 barg", "4 barg", 185),
            "max": case("800 kg/h", "10 barg", "4 barg", 186)}, 25, rated_cv=12, phase="gas", fl=0.9, xt=0.72, fd=0.46,
@@ -219,6 +261,11 @@ V += [
     valve("LV-6105", "600 Chemicals", "Ethanol day tank level", "Ethanol",
           {"min": case(1.0, 3.0, 1.5, 25), "norm": case(2.0, 3.0, 1.4, 25), "max": case(3.5, 3.0, 1.3, 25)}, 25,
           rated_cv=10, valve_style="globe_v_port"),
+    valve("FV-6106", "600 Chemicals", "Corrosion inhibitor injection", "Water",
+          {"min": case(0.4, 12, 9, 25), "max": case(0.9, 12, 8.5, 25)}, "1 in", rated_cv=1.5, fl=0.9, fd=0.46,
+          xt=0.72, pipe_in_size=4, pipe_in_schedule="40", duty="intermittent"),
+    valve("FV-6107", "600 Chemicals", "Wash water to desalter (data to confirm)", "Water",
+          {"min": case(4, 8, 6, 40), "max": case(8, 8, 5.5, 45)}, 25, rated_cv=160, fl=0.9, fd=0.46, xt=0.72),
 ]
 # Area 700: tank farm (large, low-dp valves)
 V += [
@@ -234,7 +281,10 @@ V += [
           rated_cv=500, fl=0.9, fd=0.46, xt=0.72, characteristic="linear"),
     valve("LV-7104", "700 Tank farm", "Slop oil drum level", "n-Octane",
           {"min": case(0.5, 3.0, 1.2, 30), "norm": case(1.0, 3.0, 1.2, 30), "max": case(2.0, 3.0, 1.1, 30)}, 25,
-          rated_cv=10, fl=0.9, fd=0.46, xt=0.72, travel_min=25),
+          rated_cv=10, fl=0.9, fd=0.46, xt=0.72, travel_min=25, criticality="low"),
+    valve("FV-7105", "700 Tank farm", "Fire water jockey make-up", "Water",
+          {"min": case(0.5, 10.0, 7.0, 15), "norm": case(20, 10.0, 6.5, 15), "max": case(60, 10.0, 6.0, 15)}, 80,
+          rated_cv=150, fl=0.9, fd=0.46, xt=0.72, rangeability=30),
 ]
 
 

@@ -9,7 +9,8 @@ from conftest import SAMPLE_CSV
 RESULTS = ["tag", "case", "phase", "cv_required", "cv_ratio", "travel_pct", "travel_observed_pct", "dp_kpa",
            "dp_choked_kpa", "x", "x_choked", "choke_ratio", "choked", "sigma", "xf", "xfz", "cavitation", "flashing",
            "vapour_fraction_out", "velocity_out_m_s", "mach_out", "noise_dba", "findings"]
-VALVES = ["rank", "tag", "area", "service", "worst_case", "choke_ratio_max", "severity", "findings"]
+VALVES = ["rank", "tag", "area", "service", "worst_case", "choke_ratio_max", "capacity_margin", "travel_min_pct",
+          "travel_max_pct", "gain_min", "gain_max", "severity", "findings"]
 
 
 def _rows(path):
@@ -27,8 +28,8 @@ def test_sample_audit_writes_the_three_contract_files(tmp_path):
         "row,tag,reason")
     with open(SAMPLE_CSV, newline="") as fh:
         assert len(valves) == sum(1 for _ in csv.DictReader(fh))
-    ratios = [float(v["choke_ratio_max"]) for v in valves]
-    assert ratios == sorted(ratios, reverse=True)
+    levels = [["clear", "note", "watch", "plan", "urgent"].index(v["severity"]) for v in valves]
+    assert levels == sorted(levels, reverse=True)  # ranked by severity first (docs/outputs.md)
     assert all(r["choked"] in ("true", "false") for r in results)
 
 

@@ -2,6 +2,7 @@
 import csv
 import json
 
+import numpy as np
 import pytest
 from typer.testing import CliRunner
 
@@ -128,6 +129,14 @@ TRIMS = """valve_size,rated_cv,characteristic,fl,xt,fd,xfz
 """
 
 
+def _dn(text: str) -> float:
+    """Nominal size DN of a size cell ('80', '3 in'), by the loader's own unit reading."""
+    from audit.pipes import nominal_dn
+    from audit.units import split_number
+    value, unit, _ = split_number(text)
+    return float(nominal_dn(np.array([value * (0.0254 if unit == "in" else 0.001)]))[0])
+
+
 def _audit_with_trim(tmp_path, tag, trim):
     with open(SAMPLE_CSV, newline="", encoding="utf-8") as fh:
         rows = list(csv.DictReader(fh))
@@ -156,8 +165,8 @@ def test_trim_proposed_clears_the_findings_and_no_smaller_one_does(tmp_path):
     assert proposed, "the test needs at least one proposal"
     sizes = {r["tag"]: r["valve_size"] for r in csv.DictReader(open(SAMPLE_CSV, newline="", encoding="utf-8"))}
     for v in proposed:
-        size = float(sizes[v["tag"]])
-        fitting = sorted((t for t in trims if float(t["valve_size"]) == size), key=lambda t: float(t["rated_cv"]))
+        size = _dn(sizes[v["tag"]])  # bodies and trims meet by nominal size: a 3 in body takes DN80 trims
+        fitting = sorted((t for t in trims if _dn(t["valve_size"]) == size), key=lambda t: float(t["rated_cv"]))
         chosen = next(t for t in fitting if float(t["rated_cv"]) == float(v["trim_alternative_cv"]))
         assert _audit_with_trim(tmp_path, v["tag"], chosen)["severity"] in ("clear", "note"), v["tag"]
         for smaller in fitting:
