@@ -2,8 +2,9 @@
 
 Reads valves.csv, results.csv and audit_info.json of both folders, refuses outputs of another
 output-format version, and writes comparison.csv (one row per change) and comparison.html.
-Changes: valves added or removed, findings new or cleared (by code), choke ratio worse or
-better (by more than ``RATIO_STEP``).
+Changes: valves added or removed, findings new or cleared (by code; a finding the later audit
+could no longer predict is "no longer predicted", never "cleared"), choke ratio worse or better
+(by more than ``RATIO_STEP``).
 """
 from __future__ import annotations
 
@@ -19,6 +20,8 @@ from .outputs import staged_folder, to_csv_text
 
 RATIO_STEP = 0.005  # choke-ratio change below this is rounding, not a change
 CHANGE_COLUMNS = ["tag", "change", "old", "new", "detail"]
+# A finding that disappears where the later audit says it could not predict that quantity is not cleared.
+NOT_PREDICTED = {"NOISE_NO_DATA": ("NOISE_SEVERE", "NOISE", "NOISE_NEAR")}
 NEEDED = ("tag", "worst_case", "choke_ratio_max", "finding_codes")  # the valves.csv columns a comparison reads
 
 
@@ -69,8 +72,14 @@ def compare_frames(old: pd.DataFrame, new: pd.DataFrame) -> pd.DataFrame:
         a, b = old_i.loc[tag], new_i.loc[tag]
         for code in sorted(_codes(b["finding_codes"]) - _codes(a["finding_codes"])):
             rows.append((tag, "new finding", "", code, ""))
+        unknown_now = _codes(b["finding_codes"]) & set(NOT_PREDICTED)
         for code in sorted(_codes(a["finding_codes"]) - _codes(b["finding_codes"])):
-            rows.append((tag, "cleared finding", code, "", ""))
+            lost = [u for u in unknown_now if code in NOT_PREDICTED[u]]
+            if lost:  # the later audit could not predict it: that is not a fix
+                rows.append((tag, "no longer predicted", code, lost[0], "the later audit gives no number for it; "
+                                                                        "see the case notes"))
+            else:
+                rows.append((tag, "cleared finding", code, "", ""))
         ra, rb = _num(a["choke_ratio_max"]), _num(b["choke_ratio_max"])
         if np.isfinite(ra) and np.isfinite(rb) and abs(rb - ra) > RATIO_STEP:
             rows.append((tag, "choke ratio worse" if rb > ra else "choke ratio better", f"{ra:.4g}", f"{rb:.4g}",

@@ -76,8 +76,14 @@ def add_properties(cases: pd.DataFrame, ll: LineList, options: Options) -> None:
     fluids = [f if good else None for f, good in zip(fluid_objs, ok)]
     p1, t1 = cases["p_in"].to_numpy(float), cases["t_in"].to_numpy(float)
     phase_given = cases["phase_given"].to_numpy(dtype=object)
-    props = properties.inlet_properties(fluids, p1, t1, phase_given, options.backend)
+    props = properties.inlet_properties(fluids, p1, t1, phase_given, options.backend,
+                                        quality=cases["quality_in"].to_numpy(float))
     custom = cases["custom"].to_numpy(bool)
+    # The temperature the properties were taken at: the given one, or the saturation temperature ('sat',
+    # quality_in, or a state within the saturation tolerance).
+    t1 = np.where(np.isfinite(props["t"]) & ~custom, props["t"], t1)
+    cases["t_in"] = t1
+    cases["inlet_note"] = props["note"]
     phase = np.where(custom, phase_given, props["phase"])
     over = {"rho": "density", "pv": "vapour_pressure", "pc": "critical_pressure", "mu": "viscosity",
             "molar_mass": "molar_mass", "k": "k", "z": "z", "sound_speed": "sound_speed_given"}
@@ -99,8 +105,11 @@ def add_properties(cases: pd.DataFrame, ll: LineList, options: Options) -> None:
     err = np.where((err == "") & (props["error"] != ""), props["error"], err)
     liquid = phase == "liquid"
     checks = [
-        (liquid & (out["pv"] >= p1), "the vapour pressure is at or above the inlet pressure, so the inlet "
-                                     "cannot be liquid; check vapour_pressure, p_in and t_in"),
+        (custom & ~np.isfinite(t1), "t_in 'sat' or quality_in needs a CoolProp fluid (a custom fluid has no "
+                                    "saturation data); give the inlet temperature"),
+        # A saturated liquid has pv = p_in exactly (rounding aside); above that the inlet cannot be liquid.
+        (liquid & (out["pv"] > p1 * (1.0 + 1e-6)), "the vapour pressure is above the inlet pressure, so the inlet "
+                                                   "cannot be liquid; check vapour_pressure, p_in and t_in"),
         (liquid & ~(out["pc"] > out["pv"]), "the critical pressure must be above the vapour pressure"),
         (gas & ~np.isfinite(cases["xt"].to_numpy(float)), "the case is gas or vapour but column 'xt' is "
                                                             "blank and no 'valve_style' gives a typical value"),
@@ -110,14 +119,30 @@ def add_properties(cases: pd.DataFrame, ll: LineList, options: Options) -> None:
     cases["case_error"] = err
 
 
-def add_mass_flow(cases: pd.DataFrame) -> None:
-    """Every flow basis to mass flow [kg/s] and inlet volume flow [m3/s]."""
+def add_mass_flow(cases: pd.DataFrame, ll: LineList | None = None, options: Options | None = None) -> None:
+    """Every flow basis to mass flow [kg/s] and inlet volume flow [m3/s].
+
+    Standard gas volumes: the gas's density at the unit's reference state, real gas (CoolProp) where
+    the fluid is a CoolProp fluid and a gas there, else ideal gas (custom fluids; the case says so).
+    """
     flow = cases["flow"].to_numpy(float)
     basis = cases["flow_basis"].to_numpy(dtype=object)
     rho = cases["rho"].to_numpy(float)
     gas = cases["phase"].to_numpy(dtype=object) == "gas"
-    rho_std = cases["std_p"].to_numpy(float) * cases["molar_mass"].to_numpy(float) / 1000.0 / (
-        R_GAS * cases["std_t"].to_numpy(float))
+    std_t, std_p = cases["std_t"].to_numpy(float), cases["std_p"].to_numpy(float)
+    rho_std = std_p * cases["molar_mass"].to_numpy(float) / 1000.0 / (R_GAS * std_t)
+    std = basis == "std"
+    if std.any() and ll is not None:
+        fluids = ll.valves["fluid_obj"].to_numpy(dtype=object)[cases["valve"].to_numpy(int)]
+        real = properties.standard_density([f if want else None for f, want in zip(fluids, std)], std_t, std_p,
+                                           options.backend if options else "HEOS")
+        rho_std = np.where(np.isfinite(real), real, rho_std)
+        ideal = std & ~np.isfinite(real)
+        if ideal.any():
+            cases["inlet_note"] = np.where(ideal, _join(cases["inlet_note"].to_numpy(dtype=object),
+                                                        "standard volume converted as an ideal gas (no real-gas "
+                                                        "data for this fluid at the reference state)"),
+                                           cases["inlet_note"].to_numpy(dtype=object))
     bare = flow / 3600.0  # a bare number: m3/h for liquids, kg/h for gases (contract defaults)
     w = np.select([basis == "mass", basis == "volume", basis == "std", gas], [flow, flow * rho, flow * rho_std, bare],
                   bare * rho)
@@ -127,6 +152,30 @@ def add_mass_flow(cases: pd.DataFrame) -> None:
     std_liquid = (basis == "std") & ~gas & (err == "")
     cases["case_error"] = np.where(std_liquid, "a standard gas volume flow (Nm3/h, Sm3/h, scfh, MMSCFD) was given "
                                                "for a liquid; give m3/h, l/min, gpm or a mass flow", err)
+
+
+def impossible_choke(cases: pd.DataFrame, res: dict, ok: np.ndarray) -> np.ndarray:
+    """Case errors where the given factors put the choked limit at or past the inlet pressure.
+
+    A choked pressure ratio x_choked = F_gamma xTP of 1 or more (or a liquid dp_choked at or
+    above p_in) would let the flow grow until the outlet is a vacuum: no physical valve does
+    that, so the row's xt, k or fittings are wrong.  The case is refused with the numbers.
+    """
+    gas = cases["phase"].to_numpy(dtype=object) == "gas"
+    p1 = cases["p_in"].to_numpy(float)
+    k, xtp = cases["k"].to_numpy(float), res["xtp"]
+    over_gas = ok & gas & (res["x_choked"] >= 1.0)
+    over_liquid = ok & ~gas & (res["dp_choked"] >= p1)
+    err = cases["case_error"].to_numpy(dtype=object).copy()
+    msg = np.full(len(cases), "", dtype=object)
+    for i in np.flatnonzero(over_gas):
+        msg[i] = (f"the choked pressure ratio F_gamma xTP = {res['x_choked'][i]:.3f} (exponent {k[i]:.3g}, "
+                  f"xTP {xtp[i]:.3g}) is 1 or more, which no valve reaches; check columns xt and k and the fittings")
+    for i in np.flatnonzero(over_liquid):
+        msg[i] = (f"the choked pressure drop {res['dp_choked'][i] / 1e5:.4g} bar reaches the inlet pressure "
+                  f"{p1[i] / 1e5:.4g} bar(a), which no valve reaches; check columns fl, vapour_pressure and the fittings")
+    cases["case_error"] = np.where((err == "") & (msg != ""), msg, err)
+    return msg
 
 
 def add_sizing(cases: pd.DataFrame) -> None:
@@ -141,7 +190,12 @@ def add_sizing(cases: pd.DataFrame) -> None:
         sized = size_arrays(sizing_arrays(cases, ok))
         for name in res:
             res[name][ok] = sized[name]
+    bad = impossible_choke(cases, res, ok)
     for name, arr in res.items():
+        if arr.dtype == bool:
+            arr[bad != ""] = False
+        else:
+            arr[bad != ""] = np.nan
         cases[name] = arr
     cases["cv_ratio"] = res["cv"] / cases["rated_cv"].to_numpy(float)
     cases["travel_pct"] = travel_percent(cases["cv_ratio"].to_numpy(float), cases["characteristic"].to_numpy(),
@@ -188,6 +242,10 @@ def add_outlet_state(cases: pd.DataFrame, ll: LineList, options: Options) -> Non
     cases.loc[~ok, ["rho_out", "quality_out", "t_out", "sound_speed_out"]] = np.nan
 
 
+def _join(notes: np.ndarray, extra: str) -> np.ndarray:
+    return np.array([f"{n}; {extra}" if n else extra for n in notes], dtype=object)
+
+
 def reject_unauditable(ll: LineList, cases: pd.DataFrame) -> tuple[LineList, pd.DataFrame]:
     """Move valves none of whose cases can be audited (found only once properties are known,
     such as a two-phase inlet at every case) from the audited valves to the rejected rows."""
@@ -222,7 +280,7 @@ def compute(ll: LineList, options: Options | None = None) -> Audit:
     options = options or Options()
     cases = case_table(ll, options)
     add_properties(cases, ll, options)
-    add_mass_flow(cases)
+    add_mass_flow(cases, ll, options)
     ll, cases = reject_unauditable(ll, cases)
     add_sizing(cases)
     add_outlet_state(cases, ll, options)

@@ -36,8 +36,10 @@ CASE_FIELDS = {  # prefix: (kind, default unit)
     "p_out": ("pressure", "bar"),
     "t_in": ("temperature", "degC"),
     "travel": ("percent", "%"),
+    "quality_in": ("dimensionless", ""),
 }
-CASE_COLUMN = re.compile(r"^(flow|p_in|p_out|t_in|travel)_([a-z0-9_]+)$")
+CASE_COLUMN = re.compile(r"^(quality_in|flow|p_in|p_out|t_in|travel)_([a-z0-9_]+)$")
+SATURATED = re.compile(r"^\s*sat(urated|uration)?\s*$", re.I)  # t_in 'sat': the saturation temperature at p_in
 
 NUMERIC = {  # column: (kind, default unit)
     "density": ("density", "kg/m3"),
@@ -511,6 +513,7 @@ def _cases(table: pd.DataFrame, units: dict, site: np.ndarray, n: int, decimal_c
         data = {"valve": np.arange(n), "case": case, "case_order": order}
         errors = np.full(n, "", dtype=object)
         filled = np.zeros(n, dtype=bool)
+        data["t_sat"] = np.zeros(n, dtype=bool)
         for prefix, (kind, default) in CASE_FIELDS.items():
             col = cols.get(prefix)
             if col is None:
@@ -520,7 +523,11 @@ def _cases(table: pd.DataFrame, units: dict, site: np.ndarray, n: int, decimal_c
                     data["std_t"] = data["std_p"] = np.full(n, np.nan)
                 continue
             filled |= table[col].astype(str).str.strip().to_numpy() != ""
-            parsed = parse_column(table[col], kind, units.get(col, ""), default, col, site, decimal_comma)
+            cells = table[col]
+            if prefix == "t_in":
+                data["t_sat"] = cells.astype(str).str.match(SATURATED).to_numpy(bool)
+                cells = cells.where(~data["t_sat"], "")
+            parsed = parse_column(cells, kind, units.get(col, ""), default, col, site, decimal_comma)
             errors = np.where((errors == "") & (parsed.errors != ""), parsed.errors, errors)
             data[prefix] = parsed.values
             if prefix == "flow":
@@ -540,12 +547,16 @@ def _case_checks(cases: pd.DataFrame) -> np.ndarray:
     """Physical sense of one operating case; the first problem is its reason."""
     err = cases["case_error"].to_numpy(dtype=object).copy()
     flow, p1, p2, t = (cases[c].to_numpy(float) for c in ("flow", "p_in", "p_out", "t_in"))
+    quality = cases["quality_in"].to_numpy(float)
+    saturated = cases["t_sat"].to_numpy(bool) | np.isfinite(quality)  # the temperature follows from p_in
     name = cases["case"].to_numpy(dtype=object)
     checks = [
         (~np.isfinite(flow), lambda i: f"column 'flow_{name[i]}' is blank"),
         (~np.isfinite(p1), lambda i: f"column 'p_in_{name[i]}' is blank"),
         (~np.isfinite(p2), lambda i: f"column 'p_out_{name[i]}' is blank"),
-        (~np.isfinite(t), lambda i: f"column 't_in_{name[i]}' is blank"),
+        (~np.isfinite(t) & ~saturated, lambda i: f"column 't_in_{name[i]}' is blank (a temperature, or 'sat')"),
+        ((quality < 0) | (quality > 1), lambda i: f"column 'quality_in_{name[i]}': {quality[i]:g} is not a vapour "
+                                                  "mass fraction between 0 and 1"),
         (flow <= 0, lambda i: f"column 'flow_{name[i]}': {flow[i]:g} is not a positive flow"),
         (p1 <= 0, lambda i: f"column 'p_in_{name[i]}': {p1[i] / 1e5:.4g} bar(a) is not above absolute zero"),
         (p2 <= 0, lambda i: f"column 'p_out_{name[i]}': {p2[i] / 1e5:.4g} bar(a) is not above absolute zero"),

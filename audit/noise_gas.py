@@ -10,8 +10,10 @@ the 33 third-octave bands.
 Perfect-gas relations as the standard uses them; the inlet state enters as
 p1/rho1 (= Z R T1 / M), so a real-gas density from the line list or
 CoolProp carries through.  Validity as applied here: single-phase dry gas
-at the outlet, steel pipe, valve outlet Mach number below 1 (beyond that
-the outlet flow is not the subsonic pipe flow the method describes).
+at the outlet, steel pipe.  At a valve outlet Mach number of 1 or more the
+outlet is choked and the expansion finishes in the pipe; the level is still
+given (clause 7 caps the velocities it uses) and the note says the case is at
+the method's edge.
 
 The equations, per case (FL = FLP/FP where there are fittings, g = k):
 
@@ -148,7 +150,10 @@ def gas_noise(m, p1, p2, rho1, k, kv, fl, fd, d, di, wall, rho2, c2, an=AN_GLOBE
     outlet; an, stp: acoustic efficiency correction and peak Strouhal number
     of the valve style (-3.8 and 0.2: globe valve, cage trim); outlet_flow:
     add clause 7's outlet-flow noise where it applies (False: the trim alone).
-    Returns NaN where the valve outlet Mach number is 1 or more.
+    At a valve outlet Mach number of 1 or more (a choked outlet) the level is still computed: the trim
+    noise of clause 5 depends on the inlet state and the pressure ratio, and clause 7 limits the
+    outlet-flow velocities it uses (Up <= 0.8 c2, UR <= c2); the caller says the case is at the
+    method's edge.
 
     Returns a dict: level_dba, regime, fp [Hz], mach_outlet, outlet_flow
     (True where clause 7's outlet-flow noise was added), internal_level_db
@@ -156,6 +161,7 @@ def gas_noise(m, p1, p2, rho1, k, kv, fl, fd, d, di, wall, rho2, c2, an=AN_GLOBE
     """
     col = ac.column
     m, p1, p2, rho1, k, kv, fl, fd = (col(x) for x in (m, p1, p2, rho1, k, kv, fl, fd))
+    k = np.where(np.abs(k - 1.0) < 1e-6, 1.0 + 1e-6, k)  # k/(k-1) is a removable singularity at exactly 1
     d, di, wall, rho2, c2 = (col(x) for x in (d, di, wall, rho2, c2))
     an, stp = col(np.broadcast_to(an, m.shape[:1])), col(np.broadcast_to(stp, m.shape[:1]))
     f = ac.BANDS_HZ.reshape(1, -1)
@@ -172,7 +178,7 @@ def gas_noise(m, p1, p2, rho1, k, kv, fl, fd, d, di, wall, rho2, c2, an=AN_GLOBE
         inside = 10.0 * np.log10(trim + np.where(second, outlet, 0.0))
         outside = inside + transmission_loss(f, di, wall, rho2, c2, rho_s, c_s) + ac.distance_to_1m(di, wall)
         level = ac.a_weighted_sum(outside)
-    ok = (mach_outlet[:, 0] < 1.0) & (p1[:, 0] > p2[:, 0]) & np.isfinite(level)
+    ok = (p1[:, 0] > p2[:, 0]) & np.isfinite(level)
     return {"level_dba": np.where(ok, level, np.nan), "regime": np.where(ok, regime[:, 0], 0),
             "fp": np.where(ok, fp[:, 0], np.nan), "mach_outlet": mach_outlet[:, 0],
             "outlet_flow": ok & second[:, 0], "internal_level_db": np.where(ok, lpi[:, 0], np.nan)}

@@ -20,11 +20,11 @@ import pandas as pd
 
 RESULTS_COLUMNS = ["tag", "case", "phase", "cv_required", "cv_ratio", "travel_pct", "travel_observed_pct",
                    "dp_kpa", "dp_choked_kpa", "x", "x_choked", "choke_ratio", "choked", "sigma", "xf", "xfz",
-                   "cavitation", "flashing", "vapour_fraction_out", "velocity_out_m_s", "mach_out", "noise_dba",
-                   "findings"]
+                   "cavitation", "flashing", "vapour_fraction_out", "velocity_out_m_s", "mach_out", "k_used",
+                   "noise_dba", "findings"]
 EXTRA_RESULTS = ["area", "flow_kg_h", "p_in_kpa", "p_out_kpa", "t_in_c", "kv_required", "fp", "flp", "xtp",
                  "fr", "rev", "ff", "y", "xfz_source", "noise_note", "velocity_in_m_s", "velocity_line_in_m_s",
-                 "gain_below", "flow_mult_full_travel", "choked_at_full_travel", "case_note"]
+                 "aiv_pwl_db", "gain_below", "flow_mult_full_travel", "choked_at_full_travel", "case_note"]
 VALVES_COLUMNS = ["rank", "tag", "area", "service", "worst_case", "choke_ratio_max", "capacity_margin",
                   "travel_min_pct", "travel_max_pct", "gain_min", "gain_max", "severity", "findings"]
 REJECTED_COLUMNS = ["row", "tag", "reason"]
@@ -45,7 +45,8 @@ def results_table(cases: pd.DataFrame) -> pd.DataFrame:
     """results.csv: one row per valve and case, in the contract's units."""
     def num(name, scale=1.0, offset=0.0):
         return cases[name].to_numpy(float) * scale + offset if name in cases else np.full(len(cases), np.nan)
-    note = np.where(cases["case_error"] != "", cases["case_error"], cases.get("outlet_note", ""))
+    note = np.where(cases["case_error"] != "", cases["case_error"],
+                    _join_notes(cases.get("outlet_note", ""), cases.get("velocity_note", ""), cases.get("inlet_note", "")))
     out = pd.DataFrame({
         "tag": cases["tag"], "case": cases["case"], "phase": cases["phase"],
         "cv_required": num("cv"), "cv_ratio": num("cv_ratio"), "travel_pct": num("travel_pct"),
@@ -54,19 +55,31 @@ def results_table(cases: pd.DataFrame) -> pd.DataFrame:
         "choke_ratio": num("choke_ratio"), "choked": cases["choked"].astype(bool),
         "sigma": num("sigma"), "xf": num("xf"), "xfz": num("xfz"), "cavitation": cases.get("cavitation", ""),
         "flashing": cases.get("flashing", False), "vapour_fraction_out": num("vapour_fraction_out"),
-        "velocity_out_m_s": num("velocity_out_m_s"), "mach_out": num("mach_out"), "noise_dba": num("noise_dba"),
+        "velocity_out_m_s": num("velocity_out_m_s"), "mach_out": num("mach_out"),
+        "k_used": np.where(cases["phase"].to_numpy(dtype=object) == "gas", num("k"), np.nan),
+        "noise_dba": num("noise_dba"),
         "findings": cases["findings"],
         "area": cases["area"], "flow_kg_h": num("w", 3600.0), "p_in_kpa": num("p_in", 1e-3),
         "p_out_kpa": num("p_out", 1e-3), "t_in_c": num("t_in", 1.0, -273.15), "kv_required": num("kv"),
         "fp": num("fp"), "flp": num("flp"), "xtp": num("xtp"), "fr": num("fr"), "rev": num("rev"),
         "ff": num("ff"), "y": num("y"), "xfz_source": cases.get("xfz_source", ""),
         "noise_note": cases.get("noise_note", ""), "velocity_in_m_s": num("velocity_in_m_s"),
-        "velocity_line_in_m_s": num("velocity_line_in_m_s"), "gain_below": num("gain_below"),
+        "velocity_line_in_m_s": num("velocity_line_in_m_s"), "aiv_pwl_db": num("aiv_pwl_db"),
+        "gain_below": num("gain_below"),
         "flow_mult_full_travel": num("flow_mult_full_travel"),
         "choked_at_full_travel": cases.get("choked_at_full_travel", pd.Series(False, index=cases.index)).astype(bool),
         "case_note": note,
     })
     return out[RESULTS_COLUMNS + EXTRA_RESULTS]
+
+
+def _join_notes(*columns) -> np.ndarray:
+    """Per case, the non-blank notes joined by '; '."""
+    parts = [np.asarray(c, dtype=object) if not isinstance(c, str) else None for c in columns]
+    parts = [p for p in parts if p is not None]
+    if not parts:
+        return np.array([], dtype=object)
+    return np.array(["; ".join(x for x in row if isinstance(x, str) and x) for row in zip(*parts)], dtype=object)
 
 
 def to_csv_text(frame: pd.DataFrame) -> str:

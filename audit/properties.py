@@ -27,13 +27,14 @@ import CoolProp.CoolProp as CP
 from CoolProp import AbstractState
 
 R_GAS = 8.314462618  # J/(mol K)
-SATURATION_BAND = 0.005  # relative band around p_sat treated as a saturated inlet
+SATURATION_TOLERANCE_K = 1.0  # an inlet this close to its saturation temperature is audited as saturated
+WET_GAS_MIN = 0.9  # lowest inlet vapour quality sized as a (wet) gas
 
 class StateError(ValueError):
     """A state the sizing cannot use, with a message for the plant engineer."""
 
 
-INLET_FIELDS = ("rho", "pv", "pc", "mu", "molar_mass", "z", "k", "sound_speed", "h")
+INLET_FIELDS = ("rho", "pv", "pc", "mu", "molar_mass", "z", "k", "sound_speed", "h", "t")
 
 
 @lru_cache(maxsize=1)
@@ -153,19 +154,50 @@ def _sound_speed(s: AbstractState) -> float:
         return float("nan")
 
 
+def isentropic_exponent(rho: float, sound: float, p: float, ideal: float) -> float:
+    """The exponent that governs critical flow: kappa = rho c^2 / p [-].
+
+    rho [kg/m3], sound: speed of sound [m/s], p [Pa] at the inlet state; ideal: the ideal-gas
+    ratio cp0/cv0, used where there is no speed of sound.  For a perfect gas kappa equals
+    cp/cv; for a real gas near saturation or at high pressure cp/cv is far above the exponent
+    of the isentrope p rho^-kappa = const that a nozzle follows, and it is that exponent which
+    sets the critical pressure ratio (2/(kappa+1))^(kappa/(kappa-1)) and so F_gamma = kappa/1.40
+    in IEC 60534-2-1 (checked against CoolProp's isentropic nozzle in tests/test_isentropic_exponent.py).
+    """
+    if np.isfinite(sound) and sound > 0 and rho > 0 and p > 0:
+        return rho * sound * sound / p
+    return ideal
+
+
+def _ideal_ratio(st: _State) -> float:
+    """cp0/cv0 of the ideal gas at the current temperature; NaN where the backend has none."""
+    try:
+        cp0 = st.state.cp0mass()
+    except ValueError:
+        return float("nan")
+    return cp0 / (cp0 - R_GAS / (st.molar_mass / 1000.0))
+
+
 def _read(st: _State, phase: str, pv: float) -> tuple:
     s = st.state
-    cp, cv = s.cpmass(), s.cvmass()
     sound = _sound_speed(s)
     rho = s.rhomass()
     z = s.p() * st.molar_mass / 1000.0 / (rho * R_GAS * s.T())  # Z = p M / (rho R T); not every backend has it
-    return (rho, pv, st.pc, s.viscosity(), st.molar_mass, z, cp / cv, sound, s.hmass(), phase)
+    kappa = isentropic_exponent(rho, sound, s.p(), _ideal_ratio(st)) if phase == "gas" else s.cpmass() / s.cvmass()
+    return (rho, pv, st.pc, s.viscosity(), st.molar_mass, z, kappa, sound, s.hmass(), s.T())
 
 
-def _inlet_state(st: _State, p: float, t: float, phase_given: str) -> tuple:
-    """Properties of one inlet state, or raises ValueError with a plain reason."""
+def _inlet_state(st: _State, p: float, t: float, phase_given: str, quality: float = float("nan")) -> tuple:
+    """Properties of one inlet state: (INLET_FIELDS values, phase, note), or raises StateError.
+
+    t may be NaN for `t_in = sat` (the saturation temperature at p); quality is the row's
+    `quality_in` (NaN when not given).
+    """
     s = st.state
     if st.fluid.is_mixture:
+        if not np.isfinite(t) or np.isfinite(quality):
+            raise StateError("saturated or wet inlets (t_in 'sat', quality_in) are read for pure fluids only; "
+                             "give the mixture's inlet temperature")
         pv = _safe_bubble(st, t)
         s.update(CP.PT_INPUTS, p, t)
         q = s.Q()
@@ -173,29 +205,82 @@ def _inlet_state(st: _State, p: float, t: float, phase_given: str) -> tuple:
             raise StateError(f"the inlet is two-phase at {p / 1e5:.4g} bar(a) and {t - 273.15:.4g} degC "
                              f"(vapour fraction {q:.2f}); the sizing methods need a single-phase inlet")
         phase = phase_given or ("liquid" if s.phase() == CP.iphase_liquid else "gas")
-        return _read(st, phase, pv)
+        return _read(st, phase, pv), phase, ""
+    if not np.isfinite(t) or np.isfinite(quality):
+        return _saturated_inlet(st, p, phase_given, quality)
     psat = _saturation_pressure(st, t)
     if np.isnan(psat):
         phase = phase_given or "gas"  # supercritical: compressible-flow equations
         s.update(CP.PT_INPUTS, p, t)
-        return _read(st, phase, float("nan"))
-    near = abs(p - psat) <= SATURATION_BAND * psat
-    if near and not phase_given:
-        raise StateError(f"the inlet at {p / 1e5:.4g} bar(a) and {t - 273.15:.4g} degC is at saturation "
-                         f"(saturation pressure {psat / 1e5:.4g} bar(a)): two-phase or saturated; "
-                         "state the phase in column 'phase' if it is a saturated liquid or vapour")
+        return _read(st, phase, float("nan")), phase, ""
+    t_sat = _saturation_temperature(st, p)
+    if np.isfinite(t_sat) and abs(t - t_sat) <= SATURATION_TOLERANCE_K:
+        # Exactly at saturation (within 1 mK, rounding of the two curves) counts as the liquid side.
+        side = phase_given or ("liquid" if t <= t_sat + 1e-3 else "gas")
+        values, phase, _ = _saturated_inlet(st, p, side, 0.0 if side == "liquid" else 1.0)
+        word = "liquid" if phase == "liquid" else "vapour"
+        note = (f"t_in {t - 273.15:.4g} degC is within {SATURATION_TOLERANCE_K:g} K of saturation "
+                f"({t_sat - 273.15:.4g} degC at p_in): audited as saturated {word}"
+                + ("" if phase_given else "; state the phase in column 'phase' if it is the other side"))
+        return values, phase, note
     phase = phase_given or ("liquid" if p > psat else "gas")
-    if phase == "liquid" and p < psat * (1 - SATURATION_BAND):
+    if phase == "liquid" and p < psat:
         raise StateError(f"column 'phase' says liquid, but at {p / 1e5:.4g} bar(a) and {t - 273.15:.4g} degC "
                          f"the fluid is vapour (saturation pressure {psat / 1e5:.4g} bar(a))")
-    if phase == "gas" and p > psat * (1 + SATURATION_BAND):
+    if phase == "gas" and p > psat:
         raise StateError(f"column 'phase' says gas, but at {p / 1e5:.4g} bar(a) and {t - 273.15:.4g} degC "
                          f"the fluid is liquid (saturation pressure {psat / 1e5:.4g} bar(a))")
-    if near:
-        s.update(CP.QT_INPUTS, 0.0 if phase == "liquid" else 1.0, t)
-    else:
-        s.update(CP.PT_INPUTS, p, t)
-    return _read(st, phase, psat)
+    s.update(CP.PT_INPUTS, p, t)
+    return _read(st, phase, psat), phase, ""
+
+
+def _saturation_temperature(st: _State, p: float) -> float:
+    """Saturation temperature [K] of a pure fluid at p; NaN at or above the critical pressure."""
+    if p >= st.pc:
+        return float("nan")
+    try:
+        st.state.update(CP.PQ_INPUTS, p, 0.0)
+    except ValueError:
+        return float("nan")
+    return st.state.T()
+
+
+def _saturated_inlet(st: _State, p: float, phase_given: str, quality: float) -> tuple:
+    """A saturated or wet inlet at p: saturated liquid (quality 0), saturated vapour (1), or wet vapour.
+
+    Wet vapour of quality WET_GAS_MIN or more (wet steam) is sized as a gas with the homogeneous
+    mixture's density and the saturated vapour's isentropic exponent (common practice for wet
+    steam; two-phase inlets are outside IEC 60534-2-1, and the note says so).  A lower quality is a
+    two-phase inlet the sizing methods do not cover: refused for that case.
+    """
+    if p >= st.pc:
+        raise StateError(f"p_in {p / 1e5:.4g} bar(a) is at or above the critical pressure: there is no "
+                         "saturation there; give the inlet temperature")
+    if not np.isfinite(quality):
+        if not phase_given:
+            raise StateError("t_in 'sat' needs column 'phase' (liquid or gas) or quality_in to say which side of "
+                             "saturation the inlet is on")
+        quality = 0.0 if phase_given == "liquid" else 1.0
+    if phase_given == "liquid" and quality > 0.0 or phase_given == "gas" and quality < WET_GAS_MIN:
+        raise StateError(f"quality_in {quality:g} does not fit column 'phase' ({phase_given})")
+    if 0.0 < quality < WET_GAS_MIN:
+        raise StateError(f"quality_in {quality:g}: a two-phase inlet the sizing methods do not cover (wet vapour "
+                         f"of quality {WET_GAS_MIN:g} or more is sized as a gas)")
+    s = st.state
+    if quality == 0.0:
+        s.update(CP.PQ_INPUTS, p, 0.0)
+        return _read(st, "liquid", s.p()), "liquid", "saturated liquid at p_in"
+    s.update(CP.PQ_INPUTS, p, 1.0)
+    vapour = _read(st, "gas", s.p())
+    if quality >= 1.0:
+        return vapour, "gas", "saturated vapour at p_in"
+    s.update(CP.PQ_INPUTS, p, quality)
+    wet = list(vapour)
+    wet[INLET_FIELDS.index("rho")] = s.rhomass()
+    wet[INLET_FIELDS.index("h")] = s.hmass()
+    wet[INLET_FIELDS.index("z")] = p * st.molar_mass / 1000.0 / (s.rhomass() * R_GAS * s.T())
+    return tuple(wet), "gas", (f"wet inlet, quality {quality:g}: sized as a gas with the homogeneous mixture's density "
+                               "(common practice for wet steam; two-phase inlets are outside IEC 60534-2-1)")
 
 
 def _safe_bubble(st: _State, t: float) -> float:
@@ -206,37 +291,46 @@ def _safe_bubble(st: _State, t: float) -> float:
 
 
 def inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray,
-                     phase_given: np.ndarray, backend: str = "HEOS") -> dict[str, np.ndarray]:
+                     phase_given: np.ndarray, backend: str = "HEOS",
+                     quality: np.ndarray | None = None) -> dict[str, np.ndarray]:
     """Inlet properties for every valve-case whose fluid is a CoolProp fluid.
 
     fluids: resolved fluid per case (None for custom fluids, skipped);
-    p: inlet pressure [Pa abs]; t: inlet temperature [K]; phase_given:
-    'liquid', 'gas' or '' per case; backend: CoolProp backend for pure
-    fluids ('HEOS', or a tabular one such as 'BICUBIC&HEOS'; a state outside
-    a table's range falls back to HEOS).
+    p: inlet pressure [Pa abs]; t: inlet temperature [K] (NaN: saturated at
+    p); phase_given: 'liquid', 'gas' or '' per case; backend: CoolProp
+    backend for pure fluids ('HEOS', or a tabular one such as 'BICUBIC&HEOS';
+    a state outside a table's range falls back to HEOS); quality: inlet
+    vapour mass fraction per case (NaN: not given).  A pure fluid within
+    SATURATION_TOLERANCE_K of saturation is audited as saturated, on the side
+    its phase (or its temperature) says, with a note.
     Returns arrays rho [kg/m3], pv [Pa], pc [Pa], mu [Pa s], molar_mass
-    [kg/kmol], z, k (cp/cv), sound_speed [m/s], h [J/kg], phase, error.
+    [kg/kmol], z, k (gas: the isentropic exponent rho c^2 / p, see
+    ``isentropic_exponent``; liquid: cp/cv, unused), sound_speed [m/s],
+    h [J/kg], t [K] (the temperature used), phase, note, error.
     """
     n = len(fluids)
+    quality = np.full(n, np.nan) if quality is None else np.asarray(quality, float)
     out = {name: np.full(n, np.nan) for name in INLET_FIELDS}
     out["phase"] = np.full(n, "", dtype=object)
+    out["note"] = np.full(n, "", dtype=object)
     out["error"] = np.full(n, "", dtype=object)
     for i in range(n):
         fluid = fluids[i]
-        if fluid is None or not (np.isfinite(p[i]) and np.isfinite(t[i])):
+        if fluid is None or not np.isfinite(p[i]):
             continue
         st = _state_for(fluid, backend)
-        key = (round(float(p[i]), 3), round(float(t[i]), 6), phase_given[i])
+        key = (round(float(p[i]), 3), round(float(t[i]), 6), phase_given[i], round(float(quality[i]), 6))
         if key not in st.cache:
             try:
-                st.cache[key] = _inlet_state(st, float(p[i]), float(t[i]), phase_given[i])
+                st.cache[key] = _inlet_state(st, float(p[i]), float(t[i]), phase_given[i], float(quality[i]))
             except StateError as exc:
                 st.cache[key] = str(exc)
             except ValueError as exc:
                 if backend != "HEOS":  # outside a tabular backend's range: the full equation of state
-                    full = inlet_properties([fluid], p[i:i + 1], t[i:i + 1], phase_given[i:i + 1], "HEOS")
+                    full = inlet_properties([fluid], p[i:i + 1], t[i:i + 1], phase_given[i:i + 1], "HEOS",
+                                            quality[i:i + 1])
                     st.cache[key] = full["error"][0] or (
-                        tuple(full[name][0] for name in INLET_FIELDS) + (full["phase"][0],))
+                        tuple(full[name][0] for name in INLET_FIELDS), full["phase"][0], full["note"][0])
                 else:
                     st.cache[key] = (
                         f"CoolProp could not evaluate {'&'.join(fluid.components)} at {p[i] / 1e5:.4g} bar(a) and "
@@ -245,9 +339,9 @@ def inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray,
         if isinstance(value, str):
             out["error"][i] = value
             continue
-        for name, v in zip(INLET_FIELDS, value[:-1]):
+        values, out["phase"][i], out["note"][i] = value
+        for name, v in zip(INLET_FIELDS, values):
             out[name][i] = v
-        out["phase"][i] = value[-1]
     return out
 
 
@@ -312,7 +406,8 @@ def isenthalpic_outlet(fluids: list[Fluid | None], p_out: np.ndarray, h_in: np.n
     fluids: per case (None skips the case); p_out [Pa abs]; h_in: inlet
     specific enthalpy [J/kg].  Returns quality (0 liquid, 1 vapour, between
     for a flashing mixture), density [kg/m3], t [K], sound_speed [m/s]
-    (single phase only), error.  Energy balance of an adiabatic valve with
+    (single phase: the fluid's; two-phase: the homogeneous-equilibrium one,
+    ``hem_sound_speed``), error.  Energy balance of an adiabatic valve with
     negligible kinetic energy change: h_out = h_in.  t_in [K] and gas (bool)
     per case, when given, let gas mixtures take the faster secant route.
     """
@@ -343,8 +438,10 @@ def isenthalpic_outlet(fluids: list[Fluid | None], p_out: np.ndarray, h_in: np.n
                 two_phase = 0.0 <= q <= 1.0
                 if not two_phase:
                     q = 1.0 if st.state.phase() in (CP.iphase_gas, CP.iphase_supercritical_gas) else 0.0
-                c = float("nan") if two_phase else _sound_speed(st.state)
-                st.cache[key] = (q, st.state.rhomass(), st.state.T(), c)
+                rho_out, temp_out = st.state.rhomass(), st.state.T()
+                c = hem_sound_speed(st.state, float(p_out[i]), st.state.smass()) if two_phase \
+                    else _sound_speed(st.state)
+                st.cache[key] = (q, rho_out, temp_out, c)
             except ValueError as exc:
                 if backend != "HEOS":  # outside a tabular backend's range: the full equation of state
                     full = isenthalpic_outlet([fluid], p_out[i:i + 1], h_in[i:i + 1], "HEOS",
@@ -358,6 +455,54 @@ def isenthalpic_outlet(fluids: list[Fluid | None], p_out: np.ndarray, h_in: np.n
             continue
         quality[i], rho[i], temp[i], sound[i] = value
     return {"quality": quality, "rho": rho, "t": temp, "sound_speed": sound, "error": error}
+
+
+def standard_density(fluids: list[Fluid | None], t_std: np.ndarray, p_std: np.ndarray,
+                     backend: str = "HEOS") -> np.ndarray:
+    """Density [kg/m3] of each fluid as a gas at its standard-volume reference state (t_std [K], p_std [Pa]).
+
+    Real gas (CoolProp) where the fluid is a gas there; NaN where it is not (it would be liquid, or
+    CoolProp has no state), so the caller falls back to the ideal gas and says so.  For propane at
+    15 degC and 101.325 kPa the real gas is about 1.8 % denser than the ideal one.
+    """
+    out = np.full(len(fluids), np.nan)
+    for i, fluid in enumerate(fluids):
+        if fluid is None or not (np.isfinite(t_std[i]) and np.isfinite(p_std[i])):
+            continue
+        st = _state_for(fluid, backend)
+        key = ("std", float(t_std[i]), float(p_std[i]))
+        if key not in st.cache:
+            try:
+                st.state.update(CP.PT_INPUTS, float(p_std[i]), float(t_std[i]))
+                gas = st.state.phase() in (CP.iphase_gas, CP.iphase_supercritical_gas, CP.iphase_supercritical)
+                st.cache[key] = st.state.rhomass() if gas else float("nan")
+            except ValueError:
+                st.cache[key] = float("nan")
+        out[i] = st.cache[key]
+    return out
+
+
+HEM_STEP = 0.005  # relative pressure step of the central difference along the isentrope
+
+
+def hem_sound_speed(state: AbstractState, p: float, s: float) -> float:
+    """Homogeneous-equilibrium speed of sound [m/s] of a two-phase mixture: sqrt((dp/drho) at constant s).
+
+    state: a CoolProp AbstractState of the fluid (left at the upper point); p [Pa], s [J/kg/K]
+    of the mixture.  A central difference of +-0.5 % in pressure along the isentrope, each
+    point a (p, s) flash: phases in equilibrium at every point (HEM, the homogeneous
+    equilibrium model).  Its error is second order in the step, well under 0.1 % inside the
+    dome (checked against iapws in tests/test_two_phase_outlet.py).  NaN where a flash fails.
+    """
+    try:
+        state.update(CP.PSmass_INPUTS, p * (1.0 - HEM_STEP), s)
+        rho_low = state.rhomass()
+        state.update(CP.PSmass_INPUTS, p * (1.0 + HEM_STEP), s)
+        rho_high = state.rhomass()
+    except ValueError:
+        return float("nan")
+    d_rho = rho_high - rho_low
+    return float(np.sqrt(2.0 * HEM_STEP * p / d_rho)) if d_rho > 0 else float("nan")
 
 
 def ideal_gas_density(p, t, molar_mass, z):

@@ -35,11 +35,21 @@ METHODS = [
     "choked and not, piping geometry factors FP, FLP and xTP for concentric reducers, Reynolds number factor FR "
     "(full-size and reduced trims); the coefficient C is solved for every case to 0.1 %.",
     "Liquid choked limit: dp_choked = (FLP/FP)^2 (p1 - FF pv), FF = 0.96 - 0.28 sqrt(pv/pc). Gas choked limit: "
-    "x_choked = F_gamma xTP, F_gamma = k/1.40.",
+    "x_choked = F_gamma xTP, F_gamma = kappa/1.40, kappa = rho c^2 / p the isentropic exponent at the inlet "
+    "(CoolProp; the row's own k wins): the exponent that sets a nozzle's critical pressure ratio, where the real "
+    "gas's cp/cv can be far off near saturation and at high pressure (within 2 % of CoolProp's isentropic nozzle "
+    "for the gases tested, 6 % for saturated steam). A case whose factors put x_choked at 1 or more is refused.",
     "Cavitation: xF = dp/(p1 - pv) against xFz (IEC 60534-8-4; estimated from Fd, FL and the case's Kv where the line "
     "list gives none) corrected to the inlet pressure, and against (FLP/FP)^2.",
     "Flashing: outlet pressure at or below the vapour pressure; outlet vapour fraction and mixture density from an "
-    "isenthalpic expansion (CoolProp). Outlet velocity: mass flow over outlet density and the valve's nominal bore.",
+    "isenthalpic expansion (CoolProp). Outlet velocity: mass flow over outlet density and the valve's nominal bore. "
+    "Outlet Mach number for gases and for flashing liquids, the latter against the homogeneous-equilibrium (HEM) "
+    "speed of sound of the outlet mixture (dp/drho along the isentrope); at Mach 1 or more the outlet is choked, "
+    "the velocity reported is the speed of sound, and the finding gives the outlet bore that would bring the "
+    "velocity under its limit. Body inlet and upstream line velocity at the inlet density.",
+    "Acoustic-induced vibration: sound power level of gas letdowns by Carucci and Mueller (1982), as the Energy "
+    "Institute's 2008 guidelines use it, 10 lg[(dp/p1)^3.6 W^2 (T1/M)^1.2] + 126.1 dB (constants from memory), "
+    "against a 155 dB screening limit (common practice).",
     "Liquid noise: IEC 60534-8-4:2015, A-weighted level 1 m from the downstream pipe, turbulent and cavitating "
     "parts with their own third-octave spectra, pipe-wall transmission loss band by band (steel pipe), acoustic "
     "efficiency correction An = -4.6 (globe valves; a site file may change it). Where the line list gives no "
@@ -50,12 +60,15 @@ METHODS = [
     "and peak frequency per regime), third-octave spectrum, pipe-wall transmission loss band by band, and the noise "
     "of the outlet flow where the valve outlet runs faster than Mach 0.3 into a larger pipe (clause 7). An = -3.8 and "
     "Stp = 0.2 (globe valve, cage trim) unless a site file sets others. Outlet state from the isenthalpic expansion "
-    "(CoolProp). No number where the valve outlet reaches Mach 1 or the outlet gas condenses (outside the method).",
+    "(CoolProp). At a valve outlet Mach number of 1 or more the level is still given, at the method's edge (the "
+    "note says so); no number where the outlet gas condenses, and a finding says why.",
     "Travel: from the inherent characteristic (linear, equal percentage with the rangeability, quick opening as "
     "square root), which departs from the installed characteristic.",
     "Fluid properties: CoolProp (Helmholtz equations of state; mixtures by its mixture model; mixture critical "
-    "pressure by Kay's rule). Line-list overrides win over CoolProp. Standard gas volumes as ideal gas at their "
-    "reference state.",
+    "pressure by Kay's rule). Line-list overrides win over CoolProp. Standard gas volumes at the real gas's density "
+    "at their reference state (the ideal gas's for custom fluids). Inlets within 1 K of saturation, t_in 'sat' and "
+    "quality_in are audited as saturated liquid, saturated vapour or wet vapour (quality 0.9 or more, sized as a gas "
+    "with the mixture's density: common practice for wet steam).",
 ]
 NOT_COVERED = [
     "Noise of special low-noise trims (multi-hole cages, multistage trims: IEC 60534-8-3 clause 6 and their own "

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import re
 
-CASE_PREFIXES = ("flow", "p_in", "p_out", "t_in", "travel")
+CASE_PREFIXES = ("flow", "p_in", "p_out", "t_in", "travel", "quality_in")
 
 
 def case_name(text) -> str:

@@ -110,7 +110,8 @@ def _reference_kv(CP, gas, name, p1, p2, t1, rho, mu, w, d, d1, d2, c):
     if gas:
         mw = CP.PropsSI("M", "P", p1, "T", t1, name) * 1000.0
         z = CP.PropsSI("Z", "P", p1, "T", t1, name)
-        k = CP.PropsSI("CPMASS", "P", p1, "T", t1, name) / CP.PropsSI("CVMASS", "P", p1, "T", t1, name)
+        # The isentropic exponent rho c^2 / p (docs/methods.md): the exponent the audit uses for F_gamma.
+        k = CP.PropsSI("D", "P", p1, "T", t1, name) * CP.PropsSI("A", "P", p1, "T", t1, name) ** 2 / p1
         q_normal = w / (101325.0 * mw / 1000.0 / (8.314462618 * 273.15))
         return reference.kv_gas(t1, mw, mu, k, z, p1, p2, q_normal, d, d1, d2, c.fl, c.fd, c.xt)
     psat = CP.PropsSI("P", "T", t1, "Q", 0, name)
@@ -127,7 +128,7 @@ def _measure_core(path: str) -> dict:
     t0 = time.perf_counter()
     cases = case_table(ll, Options())
     add_properties(cases, ll, Options())
-    add_mass_flow(cases)
+    add_mass_flow(cases, ll, Options())
     add_sizing(cases)
     return {"seconds": time.perf_counter() - t0, "cases": len(cases)}
 

@@ -66,6 +66,10 @@ TABLE: tuple[Grade, ...] = (
           "erosion of trim, body and the pipe downstream", "IEC 60534-2-1 (flashing)"),
     Grade("CONDENSING", "condensing", W, "a gas partly condenses across the valve",
           "the gas methods assume a dry outlet: velocity and choking are rough", "common practice"),
+    Grade("OUTLET_CHOKED", "outlet_choked", P, "valve outlet Mach number of 1 or more (gas, or a flashing liquid "
+          "against the homogeneous-equilibrium speed of sound of its outlet mixture)",
+          "the expansion finishes in the pipe downstream: shock, noise, vibration, erosion; a larger outlet helps",
+          "IEC 60534-2-1 (outlet velocity); HEM speed of sound"),
     Grade("VELOCITY", "outlet_velocity", P, "outlet velocity above velocity.*_m_s or the row's velocity_limit",
           "erosion and vibration", "common practice"),
     Grade("MACH", "outlet_velocity", P, "gas outlet Mach number above velocity.gas_mach", "noise and vibration at the outlet",
@@ -85,6 +89,9 @@ TABLE: tuple[Grade, ...] = (
           "within the methods' uncertainty of the limit", "common practice"),
     Grade("NOISE_NO_DATA", "noise_unknown", N, "no level predicted (outside the methods, or a needed input missing)",
           "the noise of this case is unknown", "IEC 60534-8-3 / 8-4 (scope)"),
+    Grade("AIV", "vibration", P, "sound power level above vibration.limit_db",
+          "acoustic-induced vibration fatigues small-bore connections and supports downstream",
+          "Carucci and Mueller (1982) sound power, Energy Institute (2008) guidelines; limit common practice"),
     Grade("TRAVEL_MISMATCH", "observed_travel", W, "observed travel differs from predicted by observed_travel.gap_pct",
           "trim wear, a wrong rated Cv on record, or process data that do not describe the case", "common practice"),
     Grade("BODY_SMALL", "body_size", N, "body more than body.size_steps nominal sizes below the upstream line",
@@ -183,3 +190,25 @@ def markdown_table() -> str:
     lines += ["", "| findings | when | becomes |", "|---|---|---|"]
     lines += [f"| {a} | {b} | {c} |" for a, b, c in ADJUSTMENTS]
     return "\n".join(lines) + "\n"
+
+
+def update_doc(path) -> None:
+    """Rewrite the two generated parts of docs/severity.md (the table and the thresholds) from the code."""
+    from pathlib import Path
+
+    from . import all_rules
+
+    page = Path(path).read_text(encoding="utf-8")
+    start, end = page.index("| finding | family | level |"), page.index("\nThe second table says")
+    page = page[:start] + markdown_table() + page[end:]
+    rows = ["| rule | threshold | default | unit | source | meaning |", "|---|---|---|---|---|---|"]
+    rows += [f"| {r.code} | `{t.name}` | {t.default:g} | {t.unit} | {t.source} | {t.meaning} |"
+             for r in all_rules() for t in r.thresholds]
+    start, end = page.index("| rule | threshold | default |"), page.index("\n\nA site rule file")
+    Path(path).write_text(page[:start] + "\n".join(rows) + page[end:], encoding="utf-8")
+
+
+if __name__ == "__main__":  # python -m rules.severity docs/severity.md
+    import sys
+
+    update_doc(sys.argv[1] if len(sys.argv) > 1 else "docs/severity.md")

@@ -13,7 +13,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from .base import Rule, RuleResult, Threshold, col, combine, findings, limit_source, per_valve, text, valid
+from .base import Rule, RuleResult, Threshold, bar, col, combine, findings, limit_source, per_valve, text, valid
+
+
+def p2_bar(cases, i: int) -> str:
+    return bar(col(cases, "p_out")[i])
 
 
 def outlet_velocity(w, rho_out, d):
@@ -26,14 +30,23 @@ def evaluate(cases, th) -> RuleResult:
     phase = text(cases, "phase")
     flashing = cases["flashing"].to_numpy(bool)
     w, d = col(cases, "w"), col(cases, "valve_size")
-    u = np.where(ok, outlet_velocity(w, col(cases, "rho_out"), d), np.nan)
+    rho_out, c_out = col(cases, "rho_out"), col(cases, "sound_speed_out")
+    u_free = np.where(ok, outlet_velocity(w, rho_out, d), np.nan)
     gas = phase == "gas"
-    mach = np.where(ok & gas, u / col(cases, "sound_speed_out"), np.nan)
+    # Mach number at the valve outlet: gas, and flashing liquid against the homogeneous-equilibrium
+    # speed of sound of the outlet mixture.  At 1 or more the outlet is choked: the velocity there is
+    # the speed of sound and the rest of the expansion happens in the pipe downstream.
+    has_mach = ok & (gas | flashing) & np.isfinite(c_out) & (c_out > 0)
+    mach = np.where(has_mach, u_free / c_out, np.nan)
+    outlet_choked = has_mach & (mach >= 1.0)
+    u = np.where(outlet_choked, c_out, u_free)
     default = np.select([gas, flashing], [th["gas_m_s"], th["flashing_m_s"]], th["liquid_m_s"])
     limit = per_valve(cases, "velocity_limit", default)
     source = limit_source(cases, "velocity_limit")
-    fast = ok & (u > limit)
-    sonic = ok & gas & (mach > th["gas_mach"])
+    fast = ok & (u > limit) & ~outlet_choked
+    sonic = ok & gas & (mach > th["gas_mach"]) & ~outlet_choked
+    with np.errstate(divide="ignore", invalid="ignore"):
+        d_needed = np.sqrt(4.0 * w / (np.pi * rho_out * limit))  # outlet bore that brings u under the limit
     name = text(cases, "case")
     kind = np.select([gas, flashing], ["gas", "flashing liquid"], "liquid")
     # Inlet: the body's inlet bore and the upstream line, at the inlet density.
@@ -52,10 +65,19 @@ def evaluate(cases, th) -> RuleResult:
         return (f"Body inlet velocity {measure} at case {name[i]} is above {limit_text} (common practice): "
                 "erosion at the inlet, and the inlet pressure the sizing assumed is not quite the one the valve sees.")
 
+    kind_out = np.where(gas, "gas", "two-phase mixture")
+    note = np.where(outlet_choked, "outlet velocity limited by choking at the outlet (the speed of sound of the "
+                                   "outlet " + kind_out + ")", "")
     return RuleResult(
         columns={"velocity_out_m_s": u, "mach_out": mach, "velocity_limit_m_s": limit, "velocity_in_m_s": u_in,
-                 "velocity_line_in_m_s": u_line},
+                 "velocity_line_in_m_s": u_line, "outlet_choked": outlet_choked, "velocity_note": note},
         findings=combine(
+            findings(outlet_choked, "OUTLET_CHOKED", lambda i: (
+                f"The valve outlet is choked at case {name[i]}: the {kind_out[i]} would leave at Mach {mach[i]:.2f}, "
+                f"so it leaves at its speed of sound ({c_out[i]:.3g} m/s) and the expansion to {p2_bar(cases, i)} "
+                f"moves into the downstream pipe (shock, noise, vibration, erosion). An outlet bore of about "
+                f"{d_needed[i] * 1000:.0f} mm (body or expander, against {d[i] * 1000:.0f} mm now) would bring the "
+                f"outlet under the {limit[i]:.3g} m/s limit."), value=mach),
             findings(fast, "VELOCITY", lambda i: (
                 f"Outlet velocity {u[i]:.3g} m/s at case {name[i]} is above the {source[i]} of "
                 f"{limit[i]:.3g} m/s for {kind[i]}: erosion and vibration risk."), value=u / limit),

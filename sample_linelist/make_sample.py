@@ -25,9 +25,9 @@ HERE = Path(__file__).resolve().parent
 COLUMNS = [
     "tag", "area", "service", "fluid", "phase", "density [kg/m3]", "vapour_pressure [kPa]", "critical_pressure",
     "viscosity [cP]", "molar_mass", "k", "z", "sound_speed", "p_atm [kPa]",
-    "flow_min", "p_in_min", "p_out_min", "t_in_min", "travel_min",
-    "flow_norm", "p_in_norm", "p_out_norm", "t_in_norm", "travel_norm",
-    "flow_max", "p_in_max", "p_out_max", "t_in_max", "travel_max",
+    "flow_min", "p_in_min", "p_out_min", "t_in_min", "quality_in_min", "travel_min",
+    "flow_norm", "p_in_norm", "p_out_norm", "t_in_norm", "quality_in_norm", "travel_norm",
+    "flow_max", "p_in_max", "p_out_max", "t_in_max", "quality_in_max", "travel_max",
     "flow_startup", "p_in_startup", "p_out_startup", "t_in_startup",
     "valve_size", "rated_cv", "rated_kv", "characteristic", "rangeability", "fl", "xt", "fd", "valve_style", "xfz",
     "pipe_in_id", "pipe_out_id", "pipe_in_size", "pipe_in_schedule", "pipe_out_size", "pipe_out_schedule",
@@ -54,11 +54,16 @@ BUILT_FOR = {
     "line_velocity": "FV-2107",            # fast in the line and at the body inlet
     "body_small": "FV-6106",               # a 1 in body in a 4 in line
     "cv_implausible": "FV-6107",           # rated Cv far beyond the body size
+    "outlet_choked_flashing": "LV-1204",   # flashing letdown whose outlet reaches the mixture's speed of sound
+    "sonic_gas": "HV-5101",                # gas outlet at Mach 1 or more
+    "wet_steam": "PV-5106",                # quality_in 0.95, and t_in 'sat' in another case
+    "saturated_liquid": "LV-5107",         # quality_in 0: boiler blowdown
+    "below_dew_point": "FV-5108",          # saturated steam written 0.6 K below its saturation temperature
 }
 
 
-def case(flow, p_in, p_out, t_in, travel=""):
-    return {"flow": flow, "p_in": p_in, "p_out": p_out, "t_in": t_in, "travel": travel}
+def case(flow, p_in, p_out, t_in, travel="", quality_in=""):
+    return {"flow": flow, "p_in": p_in, "p_out": p_out, "t_in": t_in, "travel": travel, "quality_in": quality_in}
 
 
 def valve(tag, area, service, fluid, cases, size, **kw):
@@ -237,6 +242,17 @@ V += [
           {"min": case("300 kg/h", "10 barg", "4 barg", 184), "norm": case("600 kg/h", "10 barg", "4 barg", 185),
            "max": case("800 kg/h", "10 barg", "4 barg", 186)}, 25, rated_cv=12, phase="gas", fl=0.9, xt=0.72, fd=0.46,
           p_atm=98.0),
+    valve("PV-5106", "500 Steam and flare", "Waste-heat drum wet steam to deaerator", "Water",
+          {"min": case("1.5 t/h", "6 barg", "0.4 barg", "sat", quality_in=""),
+           "max": case("4 t/h", "6 barg", "0.3 barg", "", quality_in=0.95)}, 80, rated_cv=70, phase="steam",
+          fl=0.9, xt=0.72, fd=0.46, pipe_out_size=6, pipe_out_schedule="40"),
+    valve("LV-5107", "500 Steam and flare", "Steam drum continuous blowdown (saturated water)", "Water",
+          {"min": case("0.6 t/h", "42 barg", "1.5 barg", "", quality_in=0),
+           "max": case("1.2 t/h", "42 barg", "1.5 barg", "", quality_in=0)}, 25, rated_cv=3, fl=0.9, fd=0.46,
+          xt=0.72, intent="flashing"),
+    valve("FV-5108", "500 Steam and flare", "Saturated steam to sootblowers", "Water",
+          {"max": case("2 t/h", "15 barg", "9 barg", 200.8)}, 50, rated_cv=40, phase="steam", fl=0.9, xt=0.72,
+          fd=0.46, duty="intermittent"),
 ]
 # Area 600: chemicals and oils
 V += [

@@ -8,7 +8,7 @@ from conftest import SAMPLE_CSV
 
 RESULTS = ["tag", "case", "phase", "cv_required", "cv_ratio", "travel_pct", "travel_observed_pct", "dp_kpa",
            "dp_choked_kpa", "x", "x_choked", "choke_ratio", "choked", "sigma", "xf", "xfz", "cavitation", "flashing",
-           "vapour_fraction_out", "velocity_out_m_s", "mach_out", "noise_dba", "findings"]
+           "vapour_fraction_out", "velocity_out_m_s", "mach_out", "k_used", "noise_dba", "findings"]
 VALVES = ["rank", "tag", "area", "service", "worst_case", "choke_ratio_max", "capacity_margin", "travel_min_pct",
           "travel_max_pct", "gain_min", "gain_max", "severity", "findings"]
 
