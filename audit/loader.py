@@ -76,6 +76,36 @@ CUSTOM_NEEDS = {"liquid": ("density", "vapour_pressure", "critical_pressure", "v
 PIPE_NARROWER_LIMIT = 0.75  # pipe bore below this share of the valve size is refused
 
 KNOWN = set(NUMERIC) | set(TEXT) | {"p_atm"}
+
+# Plausible magnitudes, SI (docs/input.md, "Plausible ranges"): a value outside is a typing or units slip
+# and rejects its row (or case) by name, before it can overflow the arithmetic or a plot axis.
+PLAUSIBLE = {  # column: (low, high, how the message shows the bounds)
+    "density": (0.01, 25000.0, "0.01 to 25,000 kg/m3"),
+    "vapour_pressure": (0.0, 1e9, "0 to 1,000,000 kPa"),
+    "critical_pressure": (1e4, 1e9, "10 to 1,000,000 kPa"),
+    "viscosity": (1e-7, 100.0, "0.0001 to 100,000 cP"),
+    "molar_mass": (1.0, 1000.0, "1 to 1,000 kg/kmol"),
+    "sound_speed": (10.0, 10000.0, "10 to 10,000 m/s"),
+    "valve_size": (0.003, 3.0, "3 to 3,000 mm"),
+    "rated_cv": (1e-4, 1e5, "0.0001 to 100,000 (Cv)"),
+    "rated_kv": (1e-4, 1e5, "0.0001 to 100,000 (Kv)"),
+    "rangeability": (1.0, 1000.0, "1 to 1,000"),
+    "pipe_in_id": (0.003, 5.0, "3 to 5,000 mm"),
+    "pipe_out_id": (0.003, 5.0, "3 to 5,000 mm"),
+    "pipe_in_size": (0.003, 5.0, "1/8 to 200 in"),
+    "pipe_out_size": (0.003, 5.0, "1/8 to 200 in"),
+    "pipe_out_wall": (1e-4, 0.2, "0.1 to 200 mm"),
+    "noise_limit": (30.0, 140.0, "30 to 140 dBA"),
+    "velocity_limit": (0.1, 1000.0, "0.1 to 1,000 m/s"),
+    "p_atm": (30e3, 110e3, "30 to 110 kPa"),
+}
+CASE_PLAUSIBLE = {  # case field: (low, high, bounds in words); flows in SI of their basis
+    "flow": (1e-9, 1e6, "a positive flow below 1,000,000 kg/s or m3/s"),
+    "p_in": (1.0, 1e9, "1 Pa to 10,000 bar(a)"),
+    "p_out": (1.0, 1e9, "1 Pa to 10,000 bar(a)"),
+    "t_in": (1.0, 3000.0, "1 to 3,000 K"),
+    "travel": (0.0, 110.0, "0 to 110 %"),
+}
 # A bare valve size (no unit in the cell or the header) below this is taken for inches written
 # without a unit, and refused: the smallest common control-valve body is DN15.
 BARE_SIZE_MIN_MM = 15.0
@@ -157,16 +187,23 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     reasons = _Reasons(n)
     for i, why in enumerate(early):
         reasons.text[i].extend(why)
+    for col in table.columns:
+        unknown = (table[col] == UNCACHED).to_numpy()
+        if unknown.any():
+            reasons.add(unknown, f"column '{col}': the cell holds a formula with no stored value (the workbook was "
+                                 "not recalculated before saving); recalculate and save it, or type the value")
+            table.loc[unknown, col] = ""
     text = {c: _text(table, c) for c in TEXT}
     _check_cell_length(table, limits, reasons)
 
     site = np.full(n, float(p_atm))
+    num = {}
     if "p_atm" in table:
         parsed = parse_column(table["p_atm"], "pressure", units.get("p_atm", ""), "kPa", "p_atm", site,
                               raw.decimal_comma)
         reasons.add_array(parsed.errors)
         site = np.where(np.isfinite(parsed.values), parsed.values, site)
-    num = {}
+        num["p_atm"] = parsed.values.copy()
     for col, (kind, default) in NUMERIC.items():
         if col in table:
             parsed = parse_column(table[col], kind, units.get(col, ""), default, col, site, raw.decimal_comma)
@@ -176,6 +213,7 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
             num[col] = np.full(n, np.nan)
 
     _bare_sizes(table, units, num, reasons)
+    _plausible(num, reasons)
     valves = pd.DataFrame({"row": row_numbers, "p_atm": site})
     for c in ("tag", "area", "service"):
         valves[c] = text[c]
@@ -197,7 +235,7 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     valves["overridden"] = [", ".join(c for c in OVERRIDES if np.isfinite(num[c][i])
                                       and not valves["custom"][i]) for i in range(n)]
 
-    cases = _cases(table, units, site, n, raw.decimal_comma)
+    cases = _cases(table, units, site, n, raw.decimal_comma, limits)
     has_case = np.zeros(n, dtype=bool)
     if len(cases):
         has_case[cases["valve"].to_numpy()] = True
@@ -217,6 +255,12 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     bad = reasons.bad()
     rejected = pd.DataFrame({"row": row_numbers[bad], "tag": text["tag"][bad],
                              "reason": [reasons.joined(i) for i in np.flatnonzero(bad)]})
+    unread = getattr(raw, "unread_rows", [])
+    if unread:
+        rejected = pd.concat([rejected, pd.DataFrame({
+            "row": unread, "tag": "", "reason": "text only in columns the audit does not read; no tag and no data: "
+                                                 "if this row is a valve, fill its columns (docs/input.md)"})],
+            ignore_index=True).sort_values("row", kind="stable").reset_index(drop=True)
     keep = np.flatnonzero(~bad)
     remap = -np.ones(n, dtype=int)
     remap[keep] = np.arange(len(keep))
@@ -226,7 +270,7 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
         cases = cases[~bad[cases["valve"].to_numpy()]].copy()
         cases["valve"] = remap[cases["valve"].to_numpy()]
         cases = cases.reset_index(drop=True)
-    return LineList(valves, cases, rejected, ignored, rows_total=n, source=raw)
+    return LineList(valves, cases, rejected, ignored, rows_total=n + len(unread), source=raw)
 
 
 def _columns(raw: RawTable):
@@ -255,9 +299,18 @@ def _columns(raw: RawTable):
             name = ""
         names.append(name)
         units.append(unit)
-    rows = [[("TRUE" if v else "FALSE") if isinstance(v, bool) else ("" if v is None else v) for v in r]
-            for r in raw.rows]
+    rows, cleaned = _clean_cells(raw.rows)
+    _mark_uncached(raw, rows)
+    if cleaned:
+        raw.notes.append(f"{cleaned} cell(s) held control characters or invisible marks; they were removed")
     numbers = list(raw.row_numbers)
+    # A row with text only under columns the audit does not read is no valve, but it is not blank either:
+    # it is reported (rejected.csv), never dropped.
+    read = [i for i, n in enumerate(names) if n]
+    unread_only = [any(_filled(c) for c in r) and not any(_filled(r[i]) for i in read if i < len(r)) for r in rows]
+    raw.unread_rows = [numbers[i] for i, u in enumerate(unread_only) if u]
+    rows = [r for r, u in zip(rows, unread_only) if not u]
+    numbers = [n for n, u in zip(numbers, unread_only) if not u]
     early: list[list[str]] = [[] for _ in rows]
     if "case" in seen:
         long_rows = len(rows)
@@ -275,6 +328,43 @@ def _columns(raw: RawTable):
         table = pd.DataFrame(index=range(len(rows)))
     unit_of = {names[i]: units[i] for i in keep}
     return table, unit_of, ignored, np.asarray(numbers, dtype=int), early
+
+
+UNCACHED = "\u0000uncached formula"  # a marker no cleaned cell can hold (clean_text drops NUL)
+
+
+def _mark_uncached(raw: RawTable, rows: list[list]) -> None:
+    """Cells holding a formula with no stored value get a marker that fails every parse with a plain reason."""
+    if not raw.uncached:
+        return
+    at = {n: i for i, n in enumerate(raw.row_numbers)}
+    for number, col in raw.uncached:
+        if number in at and col < len(rows[at[number]]):
+            rows[at[number]][col] = UNCACHED
+
+
+def _filled(cell) -> bool:
+    return cell is not None and str(cell).strip() != ""
+
+
+def _clean_cells(rows: list[list]) -> tuple[list[list], int]:
+    """Cells as the loader reads them: booleans as words (TRUE is no number), text without control
+    characters or invisible marks (NFKC).  Returns the rows and how many cells were cleaned."""
+    out, cleaned = [], 0
+    for r in rows:
+        new = []
+        for v in r:
+            if isinstance(v, bool):
+                v = "TRUE" if v else "FALSE"
+            elif v is None:
+                v = ""
+            elif isinstance(v, str):
+                c = clean_text(v)
+                cleaned += c != v
+                v = c
+            new.append(v)
+        out.append(new)
+    return out, cleaned
 
 
 REQUIRED = (("tag",), ("fluid",), ("valve_size",), ("rated_cv", "rated_kv"))
@@ -414,7 +504,8 @@ def _valve(text, num, reasons: _Reasons, valves: pd.DataFrame) -> None:
     _range(num, "valve_size", reasons, low=0.0, what="a size above 0")
     cv = np.where(np.isfinite(num["rated_cv"]), num["rated_cv"], num["rated_kv"] * 1.156)
     both_blank = ~np.isfinite(cv)
-    reasons.add(both_blank, "columns 'rated_cv' and 'rated_kv' are both blank; one is needed")
+    reasons.add(both_blank & ~reasons.mentions("rated_cv") & ~reasons.mentions("rated_kv"),
+                "columns 'rated_cv' and 'rated_kv' are both blank; one is needed")
     reasons.add(np.isfinite(cv) & (cv <= 0), lambda i: f"rated flow coefficient {cv[i]:g} (Cv) must be above 0")
     _range(num, "rangeability", reasons, low=1.0, what="an inherent rangeability above 1")
     characteristic = np.array([normalise_characteristic(c) for c in text["characteristic"]], dtype=object)
@@ -489,6 +580,20 @@ def _piping(text, num, reasons: _Reasons, valves: pd.DataFrame) -> None:
             _range(num, "pipe_out_wall", reasons, low=0.0, what="a wall thickness above 0")
 
 
+def _plausible(num: dict, reasons: _Reasons) -> None:
+    """Reject rows whose numbers are outside PLAUSIBLE (and blank them, so nothing downstream uses them)."""
+    for col, (low, high, words) in PLAUSIBLE.items():
+        values = num.get(col)
+        if values is None:
+            continue
+        # Zero and negative values are left to the columns' own checks, which say "above 0" more plainly.
+        out = np.isfinite(values) & (values > 0) & ((values < low) | (values > high)) | np.isinf(values)
+        shown = values.copy()
+        reasons.add(out & ~reasons.mentions(col), lambda i, col=col, words=words, shown=shown: (
+            f"column '{col}': {shown[i]:.4g} (in SI) is outside the plausible range {words}; check the value and its unit"))
+        values[out] = np.nan
+
+
 def _bare_sizes(table: pd.DataFrame, units: dict, num: dict, reasons: _Reasons) -> None:
     """A valve size with no unit anywhere and below BARE_SIZE_MIN_MM is almost surely inches: refuse it."""
     if "valve_size" not in table or units.get("valve_size"):
@@ -502,12 +607,20 @@ def _bare_sizes(table: pd.DataFrame, units: dict, num: dict, reasons: _Reasons) 
         "or the header 'valve_size [in]')"))
 
 
-def _cases(table: pd.DataFrame, units: dict, site: np.ndarray, n: int, decimal_comma: bool = False) -> pd.DataFrame:
+def _cases(table: pd.DataFrame, units: dict, site: np.ndarray, n: int, decimal_comma: bool = False,
+           limits: Limits | None = None) -> pd.DataFrame:
+    limits = limits or Limits()
     names: dict[str, dict[str, str]] = {}
     for col in table.columns:
         m = CASE_COLUMN.match(col)
         if m:
             names.setdefault(m.group(2), {})[m.group(1)] = col
+    if len(names) > limits.max_cases_per_valve:
+        raise InputError(f"the line list has {len(names):,} operating cases per valve, over the limit of "
+                         f"{limits.max_cases_per_valve:,}; a valve's cases are its design points (min, norm, max, ...)")
+    if len(names) * n > limits.max_cases:
+        raise InputError(f"{n:,} valves with {len(names):,} cases each is over the limit of {limits.max_cases:,} "
+                         "valve-cases; split the line list")
     frames = []
     for order, (case, cols) in enumerate(names.items()):
         data = {"valve": np.arange(n), "case": case, "case_order": order}
@@ -569,4 +682,9 @@ def _case_checks(cases: pd.DataFrame) -> np.ndarray:
     for mask, message in checks:
         for i in np.flatnonzero(mask & (err == "")):
             err[i] = message(i)
+    for field, (low, high, words) in CASE_PLAUSIBLE.items():
+        v = cases[field].to_numpy(float)
+        out = (np.isfinite(v) & ((v < low) | (v > high))) | np.isinf(v)
+        for i in np.flatnonzero(out & (err == "")):
+            err[i] = f"column '{field}_{name[i]}': {v[i]:.4g} (in SI) is outside the plausible range {words}"
     return err

@@ -29,16 +29,20 @@ VALVES_COLUMNS = ["rank", "tag", "area", "service", "worst_case", "choke_ratio_m
                   "travel_min_pct", "travel_max_pct", "gain_min", "gain_max", "severity", "findings"]
 REJECTED_COLUMNS = ["row", "tag", "reason"]
 
-# = and @ always start a formula; + and - do when a letter, quote or bracket follows
-# (a plain negative number stays a number).  A leading tab or CR is stripped by some importers.
-_FORMULA = re.compile(r"^[=@]|^[+\-]\s*[A-Za-z\"'(@=]|^[\t\r]")
+# The OWASP rule for CSV injection: a text cell starting with =, +, -, @, tab or carriage return is
+# prefixed with an apostrophe, whatever follows ('-1+1' and '+1+cmd|...' too).  Numbers are written as
+# numbers and never touched.  Line breaks inside text become spaces, so no reader sees an extra row.
+_FORMULA = re.compile(r"^[=+\-@\t\r]")
+_LINE_BREAKS = str.maketrans({"\r": " ", "\n": " "})
 
 
 def neutralise(value):
-    """Prefix an apostrophe to text a spreadsheet would evaluate as a formula."""
-    if isinstance(value, str) and _FORMULA.match(value):
-        return "'" + value
-    return value
+    """A text cell made safe to open in a spreadsheet (see _FORMULA); anything else unchanged."""
+    if not isinstance(value, str):
+        return value
+    if _FORMULA.match(value):
+        value = "'" + value
+    return value.translate(_LINE_BREAKS)
 
 
 def results_table(cases: pd.DataFrame) -> pd.DataFrame:
@@ -115,28 +119,123 @@ def check_writable(target: Path) -> None:
 
 @contextmanager
 def staged_folder(target: Path, published: tuple[str, ...] = AUDIT_FILES):
-    """Yield a temporary folder; on success its files replace the published set in ``target``.
+    """Yield a staging folder; on success its files become the published set in ``target`` at once.
 
-    A run killed before the end leaves ``target`` as it was.  The move is
-    one rename per file, each atomic on the same file system; published
-    files the new set does not hold are removed after it is in place.
+    Each completed run keeps its own folder (``.valve-audit-runs/<run>``); ``.valve-audit-current``
+    is a link to the published one, and each published name in ``target`` is a link through it
+    (``results.csv -> .valve-audit-current/results.csv``).  Publishing renames one link
+    (``publish``), so anyone who opens the folder's files at any instant, a person, a
+    spreadsheet or a script that knows nothing of the tool, sees one complete audit: the old or
+    the new.  A run killed at any point leaves the previous audit published.
     """
     target = Path(target)
     try:
         target.mkdir(parents=True, exist_ok=True)
-        stage = Path(tempfile.mkdtemp(prefix=".valve-audit-", dir=target))
+        remove_stale_stages(target)
+        stage = Path(tempfile.mkdtemp(prefix=f"{STAGE_PREFIX}{os.getpid()}-", dir=target))
     except OSError as exc:
         raise OutputError(f"cannot write into '{target}': {exc.strerror or exc}") from None
     try:
         yield stage
-        new = {item.name for item in stage.iterdir()}
-        for item in sorted(stage.iterdir()):
-            os.replace(item, target / item.name)
-        for name in published:
-            if name not in new and (target / name).is_file():
-                (target / name).unlink()
+        publish(target, stage, published)
     finally:
         shutil.rmtree(stage, ignore_errors=True)
+
+
+RUNS = ".valve-audit-runs"
+CURRENT = ".valve-audit-current"
+
+
+def publish(target: Path, stage: Path, published: tuple[str, ...]) -> None:
+    """Make the files of ``stage`` the published set of ``target`` (see ``staged_folder``).
+
+    Steps, each atomic on one file system, in an order that keeps one audit visible and every
+    visible name openable:
+    1. the stage folder is renamed into .valve-audit-runs/ (it is complete);
+    2. names of the published set the new run did not write are removed (a reader then sees the
+       old audit without that format, never a name that does not open);
+    3. .valve-audit-current is switched to the new run by renaming a new link over the old;
+    4. each name the new set holds becomes a link through .valve-audit-current (a name already
+       linked needs nothing; a plain file from an older version is replaced by the link); older
+       run folders are deleted.
+    """
+    runs = target / RUNS
+    runs.mkdir(exist_ok=True)
+    run = runs / stage.name[len(STAGE_PREFIX):]
+    umask = os.umask(0)
+    os.umask(umask)
+    stage.chmod(0o777 & ~umask)  # mkdtemp made it private; the published audit is read like any folder
+    os.replace(stage, run)
+    fault_point("renamed")
+    new = sorted(p.name for p in run.iterdir())
+    for name in published:
+        if name not in new and ((target / name).is_symlink() or (target / name).is_file()):
+            (target / name).unlink()
+    fault_point("pruned")
+    _replace_link(target / CURRENT, Path(RUNS) / run.name)
+    fault_point("switched")
+    for name in new:
+        link = target / name
+        wanted = Path(CURRENT) / name
+        if not (link.is_symlink() and Path(os.readlink(link)) == wanted):
+            _replace_link(link, wanted)
+            fault_point("linked")
+    for old in runs.iterdir():
+        if old.name != run.name:
+            shutil.rmtree(old, ignore_errors=True)
+
+
+def _replace_link(path: Path, points_to: Path) -> None:
+    """Point ``path`` at ``points_to`` by renaming a fresh link over it (atomic)."""
+    fresh = path.with_name(f"{path.name}.{os.getpid()}.new")
+    if fresh.is_symlink() or fresh.exists():
+        fresh.unlink()
+    os.symlink(points_to, fresh)
+    os.replace(fresh, path)
+
+
+def fault_point(step: str) -> None:
+    """Fault injection for the kill tests: VALVE_AUDIT_KILL_AT=<step> kills this process there (SIGKILL).
+
+    Unset in normal use, where this does nothing.
+    """
+    if os.environ.get("VALVE_AUDIT_KILL_AT") == step:
+        import signal
+        os.kill(os.getpid(), signal.SIGKILL)
+
+
+STAGE_PREFIX = ".valve-audit-"
+
+
+def remove_stale_stages(target: Path) -> list[str]:
+    """Remove staging folders left by runs that were killed: those whose process no longer exists.
+
+    A stage is named .valve-audit-<pid>-<random>; a stage of a live process (a concurrent run)
+    is left alone.  Returns the names removed.
+    """
+    removed = []
+    for stage in Path(target).glob(f"{STAGE_PREFIX}*"):
+        pid = stage.name[len(STAGE_PREFIX):].split("-", 1)[0]
+        if stage.is_symlink() or not stage.is_dir() or not pid.isdigit() or _alive(int(pid)):
+            continue
+        shutil.rmtree(stage, ignore_errors=True)
+        removed.append(stage.name)
+    for fresh in Path(target).glob("*.new"):  # a link a killed run was about to rename into place
+        pid = fresh.name.rsplit(".", 2)[-2] if fresh.name.count(".") >= 2 else ""
+        if fresh.is_symlink() and pid.isdigit() and not _alive(int(pid)):
+            fresh.unlink()
+            removed.append(fresh.name)
+    return removed
+
+
+def _alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:
+        return True
+    return True
 
 
 class OutputError(Exception):

@@ -27,7 +27,7 @@ def normalise_schedule(text: str) -> str:
         number = float(s)
     except ValueError:
         return s
-    return f"{number:g}" if number == int(number) else s
+    return f"{number:g}" if np.isfinite(number) and number == int(number) else s
 
 
 def pipe_dimensions(nps_inch: np.ndarray, schedules: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

@@ -16,8 +16,10 @@ import matplotlib
 
 matplotlib.use("svg")
 # Text stays text (small files); ticks are few, as each label costs the PDF renderer a layout.
+# Text from the line list (tags, case names) is shown literally, never parsed as math ($...$) or TeX.
 matplotlib.rcParams.update({"svg.fonttype": "none", "svg.hashsalt": "valve-audit", "font.size": 8,
-                            "axes.spines.top": False, "axes.spines.right": False})
+                            "axes.spines.top": False, "axes.spines.right": False, "text.parse_math": False,
+                            "text.usetex": False})
 from matplotlib.ticker import MaxNLocator  # noqa: E402
 import matplotlib.pyplot as plt  # noqa: E402
 

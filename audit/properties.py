@@ -92,10 +92,18 @@ def resolve_fluid(text: str) -> tuple[Fluid | None, str]:
         for c in comps:
             if c not in known_fluids():
                 return None, f"column 'fluid': unknown component '{c[:40]}'; nearest CoolProp names: {suggest(c)}"
+        twice = sorted({c for c in comps if comps.count(c) > 1})
+        if twice:
+            return None, f"column 'fluid': component '{twice[0][:40]}' appears twice in '{text[:60]}'; name it once"
         total = sum(fracs)
         if not all(f > 0 for f in fracs) or abs(total - 1.0) > 0.01:
             return None, f"column 'fluid': mole fractions in '{text[:60]}' must be positive and add up to 1 (they add up to {total:g})"
-        return Fluid(tuple(comps), tuple(f / total for f in fracs)), ""
+        fluid = Fluid(tuple(comps), tuple(f / total for f in fracs))
+        try:
+            _state_for(fluid, "HEOS")  # CoolProp needs interaction data for every pair: ask now, per row
+        except ValueError as exc:
+            return None, f"column 'fluid': CoolProp cannot model the mixture '{text[:60]}' ({str(exc)[:120]})"
+        return fluid, ""
     if text not in known_fluids():
         lower = {n.lower(): n for n in known_fluids()}
         if text.lower() in lower:

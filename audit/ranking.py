@@ -51,7 +51,9 @@ def family_summary(cases: pd.DataFrame, findings: pd.DataFrame) -> pd.DataFrame:
 
 def _per_valve(cases: pd.DataFrame, n: int) -> pd.DataFrame:
     """Per-valve figures over the sized cases: worst case, margins, travel and gain ranges."""
-    sized = cases[cases["converged"].to_numpy(bool)]
+    wanted = [c for c in ("valve", "case", "case_order", "choke_ratio", "flow_mult_full_travel", "travel_pct",
+                          "gain_below") if c in cases]
+    sized = cases.loc[cases["converged"].to_numpy(bool), wanted]  # a compact copy of the columns used here
     g = sized.groupby("valve")
     out = pd.DataFrame(index=range(n))
     out["choke_ratio_max"] = g["choke_ratio"].max()

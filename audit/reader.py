@@ -31,6 +31,9 @@ _INVISIBLE = re.compile("[\u0000-\u0008\u000b\u000c\u000e-\u001f\u007f-\u009f\u2
                         "\u2060-\u2064\ufeff]")
 
 
+_BREAKS = str.maketrans({"\r": " ", "\n": " ", "\t": " "})
+
+
 class InputError(Exception):
     """The input as a whole cannot be read (missing, unreadable, over a limit)."""
 
@@ -41,6 +44,10 @@ class Limits:
     max_bytes: int = 50_000_000
     max_rows: int = 100_000
     max_cell_chars: int = 1_000
+    max_unpacked_bytes: int = 300_000_000   # an XLSX's parts, uncompressed
+    max_columns: int = 2_000                # declared or found in a sheet
+    max_cases_per_valve: int = 50
+    max_cases: int = 2_000_000
 
 
 @dataclass
@@ -55,11 +62,13 @@ class RawTable:
     decimal_comma: bool = False  # a semicolon-separated export: commas are decimal marks
     units_row: list[str] = field(default_factory=list)  # units found in a row under the header
     notes: list[str] = field(default_factory=list)      # what the reader did that a person should know
+    unread_rows: list[int] = field(default_factory=list)  # rows with text only in columns not read
+    uncached: set = field(default_factory=set)  # (file row number, column index) of formulas with no stored value
 
 
 def clean_text(value: str) -> str:
-    """Text without control characters or invisible marks, NFKC-normalised."""
-    return unicodedata.normalize("NFKC", _INVISIBLE.sub("", value))
+    """Text without control characters or invisible marks, line breaks and tabs as spaces, NFKC-normalised."""
+    return unicodedata.normalize("NFKC", _INVISIBLE.sub("", value)).translate(_BREAKS)
 
 
 def normalise_header(raw) -> tuple[str, str]:
@@ -115,9 +124,12 @@ def read_source(path: str | Path, sheet: str | None, limits: Limits, is_known=No
         if is_zip or suffix in (".xlsx", ".xlsm"):
             if not is_zip:
                 raise InputError(f"'{name}' is named .xlsx but is not a workbook")
+            inspect_xlsx(data, name, limits)
             grid, numbers, sheet_name = _xlsx_rows(data, sheet, name)
+            uncached = _uncached_formulas(data, sheet_name, grid)
             decimal_comma = False
         elif suffix in (".csv", ".txt", ".tsv", ""):
+            uncached = set()
             grid, numbers, decimal_comma = _csv_rows(data, name)
             sheet_name = ""
             if sheet:
@@ -130,6 +142,7 @@ def read_source(path: str | Path, sheet: str | None, limits: Limits, is_known=No
         raise InputError(f"could not read '{name}': {str(exc)[:200]}") from None
     table = _locate_header(grid, numbers, name, is_known, is_unit)
     table.source, table.sheet, table.digest, table.decimal_comma = name, sheet_name, digest, decimal_comma
+    table.uncached = uncached
     if decimal_comma:
         table.notes.append("semicolon-separated export: commas read as decimal marks")
     if len(table.rows) > limits.max_rows:
@@ -138,11 +151,53 @@ def read_source(path: str | Path, sheet: str | None, limits: Limits, is_known=No
     return table
 
 
+_DIMENSION = re.compile(rb'<dimension[^>]*ref="[A-Z]+[0-9]+:([A-Z]+)([0-9]+)"')
+
+
+def _column_number(letters: bytes) -> int:
+    n = 0
+    for ch in letters:
+        n = n * 26 + ch - 64
+    return n
+
+
+def inspect_xlsx(data: bytes, name: str, limits: Limits) -> None:
+    """Refuse, before any parsing, a workbook whose parts or declared sheet sizes are over the limits.
+
+    A few kilobytes of XLSX can declare a sheet of 16,384 x 1,048,576 cells, or hold a
+    gigabyte-long string compressed to a megabyte: a reader that believed them would exhaust
+    memory.  The zip directory gives each part's uncompressed size, and each sheet's first bytes
+    its declared dimension, without unpacking anything large.
+    """
+    import zipfile
+
+    with zipfile.ZipFile(io.BytesIO(data)) as book:
+        parts = book.infolist()
+        unpacked = sum(p.file_size for p in parts)
+        if unpacked > limits.max_unpacked_bytes:
+            raise InputError(f"'{name}' unpacks to {unpacked:,} bytes, over the limit of {limits.max_unpacked_bytes:,} "
+                             "(a workbook that large is not a line list; save the sheet as CSV if it is genuine)")
+        for part in parts:
+            if not (part.filename.startswith("xl/worksheets/") and part.filename.endswith(".xml")):
+                continue
+            with book.open(part) as fh:
+                head = fh.read(4096)
+            m = _DIMENSION.search(head)
+            if not m:
+                continue
+            cols, rows = _column_number(m.group(1)), int(m.group(2))
+            if cols > limits.max_columns or rows > limits.max_rows + HEADER_SEARCH_ROWS + 2:
+                raise InputError(f"'{name}' declares a sheet of {rows:,} rows and {cols:,} columns, over the limits "
+                                 f"({limits.max_rows:,} rows, {limits.max_columns:,} columns); clear the unused "
+                                 "cells or save the sheet as CSV")
+
+
 def _csv_rows(data: bytes, name: str) -> tuple[list[list], list[int], bool]:
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError:
         text = data.decode("cp1252", errors="replace")  # a spreadsheet's "CSV" on Windows
+    csv.field_size_limit(max(len(data), 131072))  # a long cell rejects its row (max_cell), not the file
     sample = "\n".join(text.splitlines()[:50])
     delimiter = _delimiter(sample)
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
@@ -183,6 +238,32 @@ def _xlsx_rows(data: bytes, sheet: str | None, name: str) -> tuple[list[list], l
     chosen = _choose_sheet(book.sheet_names, visible, sheet, name)
     rows = book.get_sheet_by_name(chosen).to_python(skip_empty_area=False)
     return [list(r) for r in rows], list(range(1, len(rows) + 1)), chosen
+
+
+def _uncached_formulas(data: bytes, sheet: str, grid: list[list]) -> set:
+    """(row number, column index) of the sheet's formula cells that carry no stored value.
+
+    A workbook written by a program, or never recalculated, can hold formulas without their
+    result; the value readers then see a blank.  Such a cell is not blank, it is unknown: the
+    loader rejects its row by name.  Only looked for where the workbook holds a formula at all.
+    """
+    import zipfile
+
+    with zipfile.ZipFile(io.BytesIO(data)) as book:
+        if not any(b"<f" in book.read(p.filename) for p in book.infolist()
+                   if p.filename.startswith("xl/worksheets/") and p.filename.endswith(".xml")):
+            return set()
+    import openpyxl
+
+    wb = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=False, keep_links=False)
+    found = set()
+    for r, row in enumerate(wb[sheet].iter_rows(values_only=True)):
+        for c, value in enumerate(row):
+            if isinstance(value, str) and value.startswith("=") and r < len(grid) and \
+                    (c >= len(grid[r]) or _blank(grid[r][c])):
+                found.add((r + 1, c))
+    wb.close()
+    return found
 
 
 def _openpyxl_rows(data: bytes, sheet: str | None, name: str) -> tuple[list[list], list[int], str]:

@@ -8,6 +8,7 @@ can make it read the disk or the network.
 from __future__ import annotations
 
 import contextlib
+from html import escape as html_escape
 from pathlib import Path
 
 import numpy as np
@@ -158,7 +159,8 @@ def build_context(audit, meta: dict, plots: bool = True, progress=None) -> dict:
     if meta.get("flow_scale", 1.0) != 1.0 or meta.get("area_scale"):
         scaled = (f"flows of cases {meta['scale_cases']} multiplied by {meta['flow_scale']:g}"
                   + (f"; per area: {meta['area_scale']}" if meta.get("area_scale") else ""))
-    meta_rows = [("input file", meta["input_file"]), ("input SHA-256", meta["input_sha256"]), ("date", meta["date"]),
+    meta_rows = [("input file", meta["input_file"]), ("sheet read", meta.get("input_sheet", "") or "(CSV)"),
+                 ("input SHA-256", meta["input_sha256"]), ("date", meta["date"]),
                  ("tool version", meta["tool_version"]), ("output format version", meta["output_format_version"]),
                  ("rule-set file", meta["rules_file"]), ("rule-set SHA-256", meta.get("rules_file_sha256", "")),
                  ("trim alternatives file", meta.get("trims_file", "")),
@@ -216,9 +218,33 @@ def _draw_many(jobs: list[tuple[pd.DataFrame, int]]) -> list[str]:
 
     drawer = ValvePlots()
     try:
-        return [drawer.svg(vc, vc.iloc[worst]) for vc, worst in jobs]
+        return [_one_plot(drawer, vc, worst) for vc, worst in jobs]
     finally:
         drawer.close()
+
+
+def die_with_parent() -> None:
+    """In a worker process: ask Linux to end it when the audit process dies (a killed run leaves no workers).
+
+    prctl(PR_SET_PDEATHSIG, SIGKILL); elsewhere a no-op.
+    """
+    import ctypes
+    import signal
+    import sys
+
+    if sys.platform.startswith("linux"):
+        try:
+            ctypes.CDLL("libc.so.6", use_errno=True).prctl(1, int(signal.SIGKILL))  # 1 = PR_SET_PDEATHSIG
+        except OSError:
+            pass
+
+
+def _one_plot(drawer, vc: pd.DataFrame, worst: int) -> str:
+    """One valve's plots, or a plain sentence where its numbers cannot be drawn: a plot never stops a run."""
+    try:
+        return drawer.svg(vc, vc.iloc[worst])
+    except (ValueError, OverflowError, FloatingPointError, RuntimeError) as exc:
+        return f"<p class=\"muted\">Plots not drawn for this valve: {html_escape(str(exc).strip()[:120])}.</p>"
 
 
 def draw_plots(jobs: list, workers: int | None = None) -> list[str]:
@@ -232,7 +258,8 @@ def draw_plots(jobs: list, workers: int | None = None) -> list[str]:
     if workers < 2 or len(jobs) < PARALLEL_FROM:
         return _draw_many(jobs)
     chunks = [jobs[i::workers] for i in range(workers)]
-    with concurrent.futures.ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork")) as pool:
+    with concurrent.futures.ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork"),
+                                                initializer=die_with_parent) as pool:
         parts = list(pool.map(_draw_many, chunks))
     out = [""] * len(jobs)
     for i, part in enumerate(parts):
@@ -366,7 +393,8 @@ def render_pdf(html: str, path: Path, workers: int | None = None) -> None:
         return
     from pypdf import PdfReader, PdfWriter
 
-    with concurrent.futures.ProcessPoolExecutor(len(docs), mp_context=multiprocessing.get_context("fork")) as pool:
+    with concurrent.futures.ProcessPoolExecutor(len(docs), mp_context=multiprocessing.get_context("fork"),
+                                                initializer=die_with_parent) as pool:
         pdfs = list(pool.map(_pdf_bytes, docs))
     writer = PdfWriter()
     for data in pdfs:

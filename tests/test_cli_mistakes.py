@@ -145,7 +145,7 @@ def test_csv_only_run_removes_the_previous_reports(tmp_path):
     (out / "my_notes.txt").write_text("not ours: kept")
     r = _run(tmp_path)
     assert r.exit_code == 0
-    left = sorted(p.name for p in out.iterdir())
+    left = sorted(p.name for p in out.iterdir() if not p.name.startswith("."))
     assert left == ["audit_info.json", "my_notes.txt", "rejected.csv", "results.csv", "valves.csv"]
 
 

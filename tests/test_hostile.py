@@ -146,8 +146,11 @@ def test_outputs_neutralise_formulas_and_escape_markup(tmp_path):
             assert c.data_type != "f", c.value
 
 
+# The OWASP rule for CSV injection: a leading =, +, -, @, tab or CR in a text cell, whatever follows.
 @pytest.mark.parametrize("value,expected", [("=1+2", "'=1+2"), ("+A1", "'+A1"), ("-cmd", "'-cmd"), ("@x", "'@x"),
-                                            ("-5", "-5"), ("plain", "plain"), ('-"x"', "'-\"x\"")])
+                                            ("-5", "'-5"), ("plain", "plain"), ('-"x"', "'-\"x\""),
+                                            ("+1+cmd|' /C calc'!A0", "'+1+cmd|' /C calc'!A0"), ("-1+1", "'-1+1"),
+                                            ("\t=1", "'\t=1"), ("a\r\n=1+1", "a  =1+1"), (-5.0, -5.0)])
 def test_neutralise(value, expected):
     assert neutralise(value) == expected
 
