@@ -111,8 +111,9 @@ def check_writable(target: Path) -> None:
     target = Path(target)
     try:
         target.mkdir(parents=True, exist_ok=True)
-        probe = Path(tempfile.mkstemp(prefix=".valve-audit-probe-", dir=target)[1])
-        probe.unlink()
+        handle, probe = tempfile.mkstemp(prefix=".valve-audit-probe-", dir=target)
+        os.close(handle)
+        Path(probe).unlink()
     except OSError as exc:
         raise OutputError(f"cannot write into the output folder '{target}': {exc.strerror or exc}") from None
 
