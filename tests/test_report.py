@@ -50,6 +50,13 @@ def test_html_references_nothing_outside_itself(sample_reports):
     assert "<link" not in html and "<script" not in html
 
 
+def test_stylesheet_is_inlined_as_css_not_escaped_text(sample_reports):
+    # An escaped stylesheet (&#34;DejaVu Sans&#34;) drops the font setting: the report's own CSS goes in as is.
+    html = (sample_reports / "report.html").read_text(encoding="utf-8")
+    style = html[html.index("<style>"):html.index("</style>")]
+    assert 'font-family: "DejaVu Sans"' in style and "&#34;" not in style and "&quot;" not in style
+
+
 def test_caution_and_methods_in_both_formats(sample_reports):
     html = (sample_reports / "report.html").read_text(encoding="utf-8")
     pdf = "\n".join(page.extract_text() for page in PdfReader(sample_reports / "report.pdf").pages)
