@@ -13,7 +13,7 @@ from pathlib import Path
 from . import OUTPUT_FORMAT_VERSION, __version__
 from .engine import Audit, Options, compute
 from .loader import LineList, Limits, load_linelist
-from .outputs import check_writable, staged_folder, write_csvs
+from .outputs import OutputError, check_writable, staged_folder, write_csvs
 
 
 @dataclass
@@ -110,7 +110,19 @@ def run_files(linelist, out: Path, options: Options, limits: Limits | None = Non
     summary = Summary(rows=audit.linelist.rows_total, audited=len(audit.valves), rejected=len(audit.rejected),
                       cases=len(audit.cases), findings=len(audit.findings))
     meta = run_metadata(audit.linelist, options, rules_file, trims_file)
-    with staged_folder(Path(out)) as stage:
+    try:
+        written = _write_outputs(Path(out), audit, meta, formats, progress)
+    except OSError as exc:  # a full disk, a folder made read-only meanwhile: the previous audit stays published
+        raise OutputError(f"could not write the outputs into '{out}': {exc.strerror or exc}; the previous "
+                          "outputs there are unchanged") from None
+    progress.say(summary.text())
+    progress.say(f"Outputs in {Path(out).resolve()}: {', '.join(written)}")
+    return summary
+
+
+def _write_outputs(out: Path, audit: Audit, meta: dict, formats: set[str], progress) -> list[str]:
+    """Every chosen output, staged and then published at once; returns the names written."""
+    with staged_folder(out) as stage:
         with progress.stage("Writing the CSV outputs"):
             write_csvs(stage, audit)
             info = {k: meta[k] for k in ("output_format_version", "tool_version", "input_file", "input_sheet",
@@ -126,9 +138,7 @@ def run_files(linelist, out: Path, options: Options, limits: Limits | None = Non
             from .report import write_reports
             write_reports(stage, audit, meta, wanted, progress=progress)
         written = sorted(p.name for p in stage.iterdir())
-    progress.say(summary.text())
-    progress.say(f"Outputs in {Path(out).resolve()}: {', '.join(written)}")
-    return summary
+    return written
 
 
 def _json(audit: Audit, meta: dict) -> str:

@@ -235,3 +235,19 @@ def test_line_list_deleted_after_reading_does_not_lose_the_audit(tmp_path):
     audit = run_audit(f, Options())
     f.unlink()
     assert run_metadata(audit.linelist, Options(), None, None)["input_sha256"] == digest
+
+
+def test_full_disk_while_writing_is_an_input_error_and_keeps_the_previous_audit(tmp_path, monkeypatch):
+    # ENOSPC in the middle of writing: exit 3 with a plain message, and the folder still holds the previous audit.
+    import errno
+    import audit.pipeline as pipeline
+    f = _file(tmp_path, [f"OK-1,{GOOD}"])
+    out, _ = _run(tmp_path, f)
+    before = (out / "valves.csv").read_bytes()
+
+    def full(*args, **kwargs):
+        raise OSError(errno.ENOSPC, "No space left on device")
+    monkeypatch.setattr(pipeline, "write_csvs", full)
+    r = runner.invoke(app, ["run", str(f), "--out", str(out), "--format", "csv", "--quiet"])
+    assert r.exit_code == 3 and "No space left on device" in r.output and "unchanged" in r.output
+    assert (out / "valves.csv").read_bytes() == before
