@@ -3,9 +3,9 @@
 Exit status of ``run`` (also in the README):
   0  every non-blank row of the line list was audited;
   1  the run finished, but some rows were rejected (see rejected.csv);
-  2  the command line was wrong (unknown option, bad value);
-  3  the input could not be read at all (missing file, unreadable, over a size limit,
-     a bad rule or scaling file);
+  2  the command line was wrong (unknown option, bad value, a case name the line list lacks);
+  3  the input could not be read at all (missing file, unreadable, a required column missing,
+     over a size limit, a bad rule or scaling file), or the output folder cannot be written;
   70 an internal error: a bug in valve-audit, never the line list's fault.
 """
 from __future__ import annotations
