@@ -191,7 +191,12 @@ def _read(st: _State, phase: str, pv: float) -> tuple:
     sound = _sound_speed(s)
     rho = s.rhomass()
     z = s.p() * st.molar_mass / 1000.0 / (rho * R_GAS * s.T())  # Z = p M / (rho R T); not every backend has it
-    kappa = isentropic_exponent(rho, sound, s.p(), _ideal_ratio(st)) if phase == "gas" else s.cpmass() / s.cvmass()
+    if phase == "gas":
+        # cp0/cv0 only where there is no speed of sound: for a mixture it costs some 40 ms a state.
+        kappa = isentropic_exponent(rho, sound, s.p(), float("nan"))
+        kappa = kappa if np.isfinite(kappa) else _ideal_ratio(st)
+    else:
+        kappa = s.cpmass() / s.cvmass()
     return (rho, pv, st.pc, s.viscosity(), st.molar_mass, z, kappa, sound, s.hmass(), s.T())
 
 
@@ -298,6 +303,11 @@ def _safe_bubble(st: _State, t: float) -> float:
         return float("nan")
 
 
+def _key_number(x: float) -> float:
+    """A cache-key form of a number: rounded, with NaN as -1 (no inlet temperature or quality is -1)."""
+    return round(float(x), 6) if np.isfinite(x) else -1.0
+
+
 def inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray,
                      phase_given: np.ndarray, backend: str = "HEOS",
                      quality: np.ndarray | None = None) -> dict[str, np.ndarray]:
@@ -327,7 +337,8 @@ def inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray,
         if fluid is None or not np.isfinite(p[i]):
             continue
         st = _state_for(fluid, backend)
-        key = (round(float(p[i]), 3), round(float(t[i]), 6), phase_given[i], round(float(quality[i]), 6))
+        # NaN (t_in 'sat', no quality) becomes a sentinel: NaN != NaN would make every such key a miss.
+        key = (round(float(p[i]), 3), _key_number(t[i]), phase_given[i], _key_number(quality[i]))
         if key not in st.cache:
             try:
                 st.cache[key] = _inlet_state(st, float(p[i]), float(t[i]), phase_given[i], float(quality[i]))

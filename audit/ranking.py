@@ -35,17 +35,20 @@ def family_summary(cases: pd.DataFrame, findings: pd.DataFrame) -> pd.DataFrame:
         "sentence": findings["sentence"].to_numpy(dtype=object)})
     f = f.sort_values(["valve", "family", "severity", "value", "order"], ascending=[True, True, False, False, True],
                       kind="stable")
-    worst = f.drop_duplicates(["valve", "family"]).set_index(["valve", "family"])
+    worst = f.drop_duplicates(["valve", "family"])
     # Each other case once, at its own worst level; the level is named where it differs from the worst's.
-    per_case = f.drop_duplicates(["valve", "family", "case"]).sort_values("order", kind="stable")
-    cases_by = per_case.groupby(["valve", "family"], sort=False)[["case", "severity"]] \
-        .apply(lambda g: list(zip(g["case"], g["severity"])))
-    also = [[c if s == worst.at[key, "severity"] else f"{c} ({Severity(int(s)).label})"
-             for c, s in cases_by.loc[key] if c != worst.at[key, "case"]] for key in worst.index]
-    out = worst.reset_index()[["valve", "family", "code", "severity", "case"]]
-    out["also"] = [", ".join(a) for a in also]
-    out["sentence"] = [s if not a else f"{s} Also at case {', '.join(a)}."
-                       for s, a in zip(worst["sentence"].to_numpy(dtype=object), also)]
+    others = f.drop_duplicates(["valve", "family", "case"]).merge(
+        worst[["valve", "family", "case", "severity"]].rename(columns={"case": "worst_case", "severity": "worst"}),
+        on=["valve", "family"])
+    others = others[others["case"] != others["worst_case"]].sort_values("order", kind="stable")
+    labels = np.array([Severity(int(s)).label for s in others["severity"]], dtype=object)
+    others = others.assign(label=np.where(others["severity"] == others["worst"], others["case"],
+                                          others["case"].astype(object) + " (" + labels + ")"))
+    also = others.groupby(["valve", "family"], sort=False)["label"].agg(", ".join)
+    out = worst[["valve", "family", "code", "severity", "case"]].reset_index(drop=True)
+    out["also"] = also.reindex(pd.MultiIndex.from_frame(out[["valve", "family"]])).fillna("").to_numpy()
+    out["sentence"] = [s if not a else f"{s} Also at case {a}."
+                       for s, a in zip(worst["sentence"].to_numpy(dtype=object), out["also"])]
     return out.sort_values(["valve", "severity"], ascending=[True, False], kind="stable").reset_index(drop=True)[cols]
 
 
