@@ -9,7 +9,6 @@ and moved into place only when all are complete.
 from __future__ import annotations
 
 import os
-import re
 import shutil
 import tempfile
 from contextlib import contextmanager
@@ -32,17 +31,17 @@ REJECTED_COLUMNS = ["row", "tag", "reason"]
 # The OWASP rule for CSV injection: a text cell starting with =, +, -, @, tab or carriage return is
 # prefixed with an apostrophe, whatever follows ('-1+1' and '+1+cmd|...' too).  Numbers are written as
 # numbers and never touched.  Line breaks inside text become spaces, so no reader sees an extra row.
-_FORMULA = re.compile(r"^[=+\-@\t\r]")
+FORMULA_STARTS = "=+-@\t\r"
 _LINE_BREAKS = str.maketrans({"\r": " ", "\n": " "})
 
 
 def neutralise(value):
-    """A text cell made safe to open in a spreadsheet (see _FORMULA); anything else unchanged."""
-    if not isinstance(value, str):
+    """A text cell made safe to open in a spreadsheet (see FORMULA_STARTS); anything else unchanged."""
+    if not isinstance(value, str) or not value:
         return value
-    if _FORMULA.match(value):
+    if value[0] in FORMULA_STARTS:
         value = "'" + value
-    return value.translate(_LINE_BREAKS)
+    return value.translate(_LINE_BREAKS) if ("\r" in value or "\n" in value) else value
 
 
 def results_table(cases: pd.DataFrame) -> pd.DataFrame:

@@ -66,8 +66,13 @@ class RawTable:
     uncached: set = field(default_factory=set)  # (file row number, column index) of formulas with no stored value
 
 
+_PLAIN = re.compile(r"[\x20-\x7e]*")  # printable ASCII: nothing to clean (most cells)
+
+
 def clean_text(value: str) -> str:
     """Text without control characters or invisible marks, line breaks and tabs as spaces, NFKC-normalised."""
+    if _PLAIN.fullmatch(value):
+        return value
     return unicodedata.normalize("NFKC", _INVISIBLE.sub("", value)).translate(_BREAKS)
 
 
