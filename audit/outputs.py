@@ -49,7 +49,8 @@ def results_table(cases: pd.DataFrame) -> pd.DataFrame:
     def num(name, scale=1.0, offset=0.0):
         return cases[name].to_numpy(float) * scale + offset if name in cases else np.full(len(cases), np.nan)
     note = np.where(cases["case_error"] != "", cases["case_error"],
-                    _join_notes(cases.get("outlet_note", ""), cases.get("velocity_note", ""), cases.get("inlet_note", "")))
+                    _join_notes(*(cases[c] if c in cases else [""] * len(cases)
+                                  for c in ("outlet_note", "velocity_note", "inlet_note"))))
     out = pd.DataFrame({
         "tag": cases["tag"], "case": cases["case"], "phase": cases["phase"],
         "cv_required": num("cv"), "cv_ratio": num("cv_ratio"), "travel_pct": num("travel_pct"),
@@ -76,13 +77,9 @@ def results_table(cases: pd.DataFrame) -> pd.DataFrame:
     return out[RESULTS_COLUMNS + EXTRA_RESULTS]
 
 
-def _join_notes(*columns) -> np.ndarray:
-    """Per case, the non-blank notes joined by '; '."""
-    parts = [np.asarray(c, dtype=object) if not isinstance(c, str) else None for c in columns]
-    parts = [p for p in parts if p is not None]
-    if not parts:
-        return np.array([], dtype=object)
-    return np.array(["; ".join(x for x in row if isinstance(x, str) and x) for row in zip(*parts)], dtype=object)
+def _join_notes(*columns: pd.Series) -> list[str]:
+    """Per case, the non-blank notes of the given columns joined by '; '."""
+    return ["; ".join(x for x in row if isinstance(x, str) and x) for row in zip(*columns)]
 
 
 def to_csv_text(frame: pd.DataFrame) -> str:

@@ -162,11 +162,11 @@ def _sound_speed(s: AbstractState) -> float:
         return float("nan")
 
 
-def isentropic_exponent(rho: float, sound: float, p: float, ideal: float) -> float:
-    """The exponent that governs critical flow: kappa = rho c^2 / p [-].
+def isentropic_exponent(rho: float, sound: float, p: float) -> float:
+    """The exponent that governs critical flow: kappa = rho c^2 / p [-]; NaN where there is no speed of sound.
 
-    rho [kg/m3], sound: speed of sound [m/s], p [Pa] at the inlet state; ideal: the ideal-gas
-    ratio cp0/cv0, used where there is no speed of sound.  For a perfect gas kappa equals
+    rho [kg/m3], sound: speed of sound [m/s], p [Pa] at the inlet state (the caller falls back
+    to the ideal gas's cp0/cv0 where this is NaN).  For a perfect gas kappa equals
     cp/cv; for a real gas near saturation or at high pressure cp/cv is far above the exponent
     of the isentrope p rho^-kappa = const that a nozzle follows, and it is that exponent which
     sets the critical pressure ratio (2/(kappa+1))^(kappa/(kappa-1)) and so F_gamma = kappa/1.40
@@ -174,7 +174,7 @@ def isentropic_exponent(rho: float, sound: float, p: float, ideal: float) -> flo
     """
     if np.isfinite(sound) and sound > 0 and rho > 0 and p > 0:
         return rho * sound * sound / p
-    return ideal
+    return float("nan")
 
 
 def _ideal_ratio(st: _State) -> float:
@@ -193,7 +193,7 @@ def _read(st: _State, phase: str, pv: float) -> tuple:
     z = s.p() * st.molar_mass / 1000.0 / (rho * R_GAS * s.T())  # Z = p M / (rho R T); not every backend has it
     if phase == "gas":
         # cp0/cv0 only where there is no speed of sound: for a mixture it costs some 40 ms a state.
-        kappa = isentropic_exponent(rho, sound, s.p(), float("nan"))
+        kappa = isentropic_exponent(rho, sound, s.p())
         kappa = kappa if np.isfinite(kappa) else _ideal_ratio(st)
     else:
         kappa = s.cpmass() / s.cvmass()

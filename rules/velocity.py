@@ -16,10 +16,6 @@ import numpy as np
 from .base import Rule, RuleResult, Threshold, bar, col, combine, findings, limit_source, per_valve, text, valid
 
 
-def p2_bar(cases, i: int) -> str:
-    return bar(col(cases, "p_out")[i])
-
-
 def outlet_velocity(w, rho_out, d):
     """Mean outlet velocity [m/s]: w mass flow [kg/s], rho_out [kg/m3], d outlet bore [m]."""
     return w / (rho_out * np.pi * d ** 2 / 4.0)
@@ -29,7 +25,7 @@ def evaluate(cases, th) -> RuleResult:
     ok = valid(cases)
     phase = text(cases, "phase")
     flashing = cases["flashing"].to_numpy(bool)
-    w, d = col(cases, "w"), col(cases, "valve_size")
+    w, d, p2 = col(cases, "w"), col(cases, "valve_size"), col(cases, "p_out")
     rho_out, c_out = col(cases, "rho_out"), col(cases, "sound_speed_out")
     u_free = np.where(ok, outlet_velocity(w, rho_out, d), np.nan)
     gas = phase == "gas"
@@ -74,7 +70,7 @@ def evaluate(cases, th) -> RuleResult:
         findings=combine(
             findings(outlet_choked, "OUTLET_CHOKED", lambda i: (
                 f"The valve outlet is choked at case {name[i]}: the {kind_out[i]} would leave at Mach {mach[i]:.2f}, "
-                f"so it leaves at its speed of sound ({c_out[i]:.3g} m/s) and the expansion to {p2_bar(cases, i)} "
+                f"so it leaves at its speed of sound ({c_out[i]:.3g} m/s) and the expansion to {bar(p2[i])} "
                 f"moves into the downstream pipe (shock, noise, vibration, erosion). An outlet bore of about "
                 f"{d_needed[i] * 1000:.0f} mm (body or expander, against {d[i] * 1000:.0f} mm now) would bring the "
                 f"outlet under the {limit[i]:.3g} m/s limit."), value=mach),
