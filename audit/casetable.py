@@ -8,7 +8,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from . import sizing
+from audit.iec import sizing
 
 # The case columns sizing.size_valves takes, in its argument order (after is_gas).
 SIZING_INPUTS = ("w", "p_in", "p_out", "t_in", "rho", "pv", "pc", "mu", "molar_mass", "k", "valve_size",

@@ -14,11 +14,11 @@ import re
 import tomllib
 import traceback
 from pathlib import Path
-from typing import Optional
+from typing import List, Optional
 
 import typer
 
-from . import __version__
+from audit import __version__
 
 EXIT_OK, EXIT_REJECTED, EXIT_USAGE, EXIT_INPUT, EXIT_BUG = 0, 1, 2, 3, 70
 FORMATS = ("csv", "html", "pdf", "xlsx", "json")
@@ -83,6 +83,24 @@ def _backend(value: str) -> str:
     return value
 
 
+def _hours(value: float) -> float:
+    if not (0 < value <= 24 * 366):
+        raise typer.BadParameter(f"{value:g} is not a number of hours between 0 and a year")
+    return value
+
+
+def _time_zone(value: str) -> str:
+    import zoneinfo
+
+    if value.upper() == "UTC":
+        return "UTC"
+    try:
+        zoneinfo.ZoneInfo(value)
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError):
+        raise typer.BadParameter(f"'{value}' is not a time zone name; use an IANA name such as Europe/Oslo, or UTC")
+    return value
+
+
 def _at_least_one(value: int) -> int:
     if value < 1:
         raise typer.BadParameter(f"{value} must be 1 or more")
@@ -129,6 +147,15 @@ def run(
     max_bytes: int = typer.Option(50_000_000, "--max-bytes", callback=_at_least_one,
                                   help="Refuse a line list file larger than this many bytes."),
     max_cell: int = typer.Option(1_000, "--max-cell", callback=_at_least_one, help="Reject a row with a longer cell."),
+    history: Optional[List[Path]] = typer.Option(None, "--history", help="Historian export (CSV or Parquet, "
+                                                 "docs/history.md); repeat for several files. Needs hist_* columns."),
+    history_tz: str = typer.Option("UTC", "--history-tz", callback=_time_zone,
+                                   help="Time zone of history time stamps written without an offset."),
+    history_hold: float = typer.Option(2.0, "--history-hold", callback=_hours,
+                                       help="Hours a signal's last value stays valid for a sample."),
+    history_stuck: float = typer.Option(24.0, "--history-stuck", callback=_hours,
+                                        help="Hours of one repeated value (while flow changes) that mark a signal "
+                                             "as stuck."),
     quiet: bool = typer.Option(False, "--quiet", help="No progress or summary on the terminal (for schedulers)."),
 ):
     """Audit LINELIST and write results.csv, valves.csv, rejected.csv and the reports into --out.
@@ -137,8 +164,11 @@ def run(
     3 input unreadable (file, size limit, rule or scaling file); 70 internal error (a bug).
     """
     try:
+        from audit.history.study import HistorySettings
+
+        hist = HistorySettings(tuple(history or ()), history_tz, history_hold, history_stuck)
         code = _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cases, area_scale,
-                    trims, backend, max_rows, max_bytes, max_cell, quiet)
+                    trims, backend, max_rows, max_bytes, max_cell, quiet, hist)
     except InputProblem as exc:
         typer.echo(f"valve-audit: {exc}", err=True)
         code = EXIT_INPUT
@@ -155,11 +185,11 @@ def run(
 
 
 def _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cases, area_scale, trims, backend,
-         max_rows, max_bytes, max_cell, quiet) -> int:
-    from .engine import Options
-    from .loader import InputError, Limits
-    from .outputs import OutputError
-    from .pipeline import OptionMismatch, run_files
+         max_rows, max_bytes, max_cell, quiet, history=None) -> int:
+    from audit.engine import Options
+    from audit.io.loader import InputError, Limits
+    from audit.io.outputs import OutputError
+    from audit.pipeline import OptionMismatch, run_files
     from rules import ThresholdError, effective_thresholds
 
     thresholds = _load_toml(rules_file, "rule file") if rules_file else {}
@@ -178,7 +208,7 @@ def _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cas
     limits = Limits(max_bytes=max_bytes, max_rows=max_rows, max_cell_chars=max_cell)
     try:
         summary = run_files(linelist, out, options, limits, sheet=sheet, formats=set(formats.split(",")),
-                            rules_file=rules_file, trims_file=trims, quiet=quiet)
+                            rules_file=rules_file, trims_file=trims, quiet=quiet, history=history)
     except (InputError, OutputError) as exc:
         raise InputProblem(str(exc))
     except OptionMismatch as exc:
@@ -226,7 +256,7 @@ def compare(
     out: Path = typer.Option(Path("reports/compare"), "--out", help="Folder for the comparison."),
 ):
     """Compare two audits' CSV outputs: new and cleared findings, worse and better choke ratios."""
-    from .compare import CompareError, compare_folders
+    from audit.studies.compare import CompareError, compare_folders
 
     try:
         summary = compare_folders(old, new, out)

@@ -12,11 +12,11 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from . import properties
-from .casetable import size_arrays, sizing_arrays
-from .characteristic import travel_percent
-from .headroom import add_case_headroom, add_valve_headroom
-from .loader import LineList
+from audit.fluid import outlet, properties
+from audit.casetable import size_arrays, sizing_arrays
+from audit.iec.characteristic import travel_percent
+from audit.studies.headroom import add_case_headroom, add_valve_headroom
+from audit.io.loader import LineList
 
 R_GAS = properties.R_GAS
 
@@ -41,6 +41,7 @@ class Audit:
     linelist: LineList
     options: Options
     valve_extra_columns: tuple[str, ...] = ()   # valves.csv columns beyond the contract
+    history: object = None     # audit.history.study.HistoryResult, with --history
 
 
 # The valve's own fields each case carries (the rules read them per case).
@@ -134,7 +135,7 @@ def add_mass_flow(cases: pd.DataFrame, ll: LineList | None = None, options: Opti
     std = basis == "std"
     if std.any() and ll is not None:
         fluids = ll.valves["fluid_obj"].to_numpy(dtype=object)[cases["valve"].to_numpy(int)]
-        real = properties.standard_density([f if want else None for f, want in zip(fluids, std)], std_t, std_p,
+        real = outlet.standard_density([f if want else None for f, want in zip(fluids, std)], std_t, std_p,
                                            options.backend if options else "HEOS")
         rho_std = np.where(np.isfinite(real), real, rho_std)
         ideal = std & ~np.isfinite(real)
@@ -226,7 +227,7 @@ def add_outlet_state(cases: pd.DataFrame, ll: LineList, options: Options) -> Non
     # liquids and gases need the (h, p) flash, which for mixtures costs a tenth of a second.
     need = ok & ~custom & (gas | flashing)
     fluids = [f if want else None for f, want in zip(fluid_objs, need)]
-    flash = properties.isenthalpic_outlet(fluids, p2, cases["h_in"].to_numpy(float), options.backend,
+    flash = outlet.isenthalpic_outlet(fluids, p2, cases["h_in"].to_numpy(float), options.backend,
                                           t_in=cases["t_in"].to_numpy(float), gas=gas)
     rho1, p1, t1 = (cases[c].to_numpy(float) for c in ("rho", "p_in", "t_in"))
     k, m, z = (cases[c].to_numpy(float) for c in ("k", "molar_mass", "z"))
@@ -267,13 +268,16 @@ def reject_unauditable(ll: LineList, cases: pd.DataFrame) -> tuple[LineList, pd.
     cases = cases[~np.isin(cases["valve"], drop)].copy()
     cases["valve"] = remap[cases["valve"].to_numpy(int)]
     cases = cases.reset_index(drop=True)
-    return LineList(valves, ll.cases, rejected, ll.ignored_columns, ll.rows_total), cases
+    kept_cases = ll.cases[~np.isin(ll.cases["valve"], drop)].copy()
+    kept_cases["valve"] = remap[kept_cases["valve"].to_numpy(int)]
+    return LineList(valves, kept_cases.reset_index(drop=True), rejected, ll.ignored_columns, ll.rows_total,
+                    source=ll.source, units=ll.units), cases
 
 
 def compute(ll: LineList, options: Options | None = None) -> Audit:
     """Audit a loaded line list: every case sized, screened and ranked."""
     from rules import apply_rules  # the rules package depends on audit, not the reverse
-    from .ranking import rank_valves
+    from audit.ranking import rank_valves
 
     from rules import effective_thresholds
 

@@ -10,10 +10,10 @@ from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 
-from . import OUTPUT_FORMAT_VERSION, __version__
-from .engine import Audit, Options, compute
-from .loader import LineList, Limits, load_linelist
-from .outputs import OutputError, check_writable, staged_folder, write_csvs
+from audit import OUTPUT_FORMAT_VERSION, __version__
+from audit.engine import Audit, Options, compute
+from audit.io.loader import LineList, Limits, load_linelist
+from audit.io.outputs import OutputError, check_writable, staged_folder, write_csvs
 
 
 @dataclass
@@ -84,7 +84,7 @@ def check_options(ll: LineList, options: Options) -> None:
 
 
 def run_audit(linelist, options: Options, limits: Limits | None = None, sheet: str | None = None,
-              trims_file: Path | None = None, progress=None) -> Audit:
+              trims_file: Path | None = None, progress=None, history=None) -> Audit:
     progress = progress or _Progress(True)
     with progress.stage("Reading the line list"):
         ll = load_linelist(linelist, sheet=sheet, p_atm=options.p_atm, limits=limits)
@@ -92,24 +92,48 @@ def run_audit(linelist, options: Options, limits: Limits | None = None, sheet: s
     progress.report_input(ll)
     with progress.stage(f"Auditing {len(ll.valves)} valves ({len(ll.cases)} cases)"):
         audit = compute(ll, options)
+    if history is not None and history.files:
+        audit = _with_history(audit, options, history, progress)
     if trims_file:
-        from .trims import add_trim_alternatives
+        from audit.studies.trims import add_trim_alternatives
         with progress.stage("Re-screening against the trims file"):
             add_trim_alternatives(audit, trims_file)
     return audit
 
 
+def _with_history(audit: Audit, options: Options, history, progress) -> Audit:
+    """Audit every operating sample of the process history, then re-audit the line list with the
+    representative samples added as cases (so ranking, headroom and the report treat them like any other)."""
+    from audit.history.study import study_history, with_history_cases
+
+    files = len(history.files)
+    with progress.stage(f"Reading and auditing the process history ({files} file{'s' if files != 1 else ''})"):
+        result = study_history(audit, history, options, progress)
+    used = int(result.table["samples_used"].sum()) if len(result.table) else 0
+    progress.say(f"History: {len(result.table)} valves, {int(result.table['samples_read'].sum()):,} samples read, "
+                 f"{used:,} audited")
+    ll = with_history_cases(audit.linelist, result)
+    with progress.stage(f"Auditing {len(ll.valves)} valves with the representative history cases"):
+        final = compute(ll, options)
+    final.history = result
+    return final
+
+
 def run_files(linelist, out: Path, options: Options, limits: Limits | None = None, sheet: str | None = None,
               formats: set[str] | None = None, rules_file: Path | None = None, trims_file: Path | None = None,
-              quiet: bool = False) -> Summary:
+              quiet: bool = False, history=None) -> Summary:
     """Audit ``linelist`` (a path, or '-' for standard input) and write the chosen outputs into ``out``."""
     formats = formats or {"csv", "html", "pdf", "xlsx"}
     check_writable(Path(out))
     progress = _Progress(quiet)
-    audit = run_audit(linelist, options, limits, sheet, trims_file, progress)
+    audit = run_audit(linelist, options, limits, sheet, trims_file, progress, history)
     summary = Summary(rows=audit.linelist.rows_total, audited=len(audit.valves), rejected=len(audit.rejected),
                       cases=len(audit.cases), findings=len(audit.findings))
     meta = run_metadata(audit.linelist, options, rules_file, trims_file)
+    if history is not None and history.files:
+        meta["history_files"] = [{"file": str(f), "sha256": sha256(Path(f))} for f in history.files]
+        meta["history_settings"] = {"time_zone": history.tz, "hold_hours": history.hold_hours,
+                                    "stuck_hours": history.stuck_hours}
     try:
         written = _write_outputs(Path(out), audit, meta, formats, progress)
     except OSError as exc:  # a full disk, a folder made read-only meanwhile: the previous audit stays published
@@ -128,6 +152,7 @@ def _write_outputs(out: Path, audit: Audit, meta: dict, formats: set[str], progr
             info = {k: meta[k] for k in ("output_format_version", "tool_version", "input_file", "input_sheet",
                                          "input_sha256", "rules_file_sha256", "flow_scale", "scale_cases",
                                          "area_scale")}
+            info.update({k: meta[k] for k in ("history_files", "history_settings") if k in meta})
             # No date here: the same input and options give the same bytes (the date is in the report).
             (stage / "audit_info.json").write_text(json.dumps(info, indent=1, sort_keys=True) + "\n",
                                                    encoding="utf-8")
@@ -135,14 +160,14 @@ def _write_outputs(out: Path, audit: Audit, meta: dict, formats: set[str], progr
                 (stage / "audit.json").write_text(_json(audit, meta), encoding="utf-8")
         wanted = formats & {"html", "pdf", "xlsx"}
         if wanted:
-            from .report import write_reports
+            from audit.report.write import write_reports
             write_reports(stage, audit, meta, wanted, progress=progress)
         written = sorted(p.name for p in stage.iterdir())
     return written
 
 
 def _json(audit: Audit, meta: dict) -> str:
-    from .outputs import VALVES_COLUMNS, results_table
+    from audit.io.outputs import VALVES_COLUMNS, results_table
     valves = audit.valves[VALVES_COLUMNS].to_dict(orient="records")
     results = results_table(audit.cases).to_dict(orient="records")
     rejected = audit.rejected.to_dict(orient="records")

@@ -46,7 +46,8 @@ def _measure_report(path: str, out: str) -> dict:
     """In this (fresh) process: the audit once, then the HTML and the PDF, each timed."""
     from audit.engine import Options
     from audit.pipeline import run_audit, run_metadata
-    from audit.report import build_context, render_html, render_pdf
+    from audit.report.html import build_context, render_html
+    from audit.report.pdf import render_pdf
 
     options = Options()
     audit = run_audit(Path(path), options)
@@ -73,7 +74,7 @@ def reference_row_by_row(path: Path) -> tuple[list[dict], float]:
     import CoolProp.CoolProp as CP
 
     from audit.engine import Options, case_table
-    from audit.loader import load_linelist
+    from audit.io.loader import load_linelist
 
     ll = load_linelist(path)
     cases = case_table(ll, Options())
@@ -122,7 +123,7 @@ def _reference_kv(CP, gas, name, p1, p2, t1, rho, mu, w, d, d1, d2, c):
 def _measure_core(path: str) -> dict:
     """In this (fresh) process: properties and sizing only, the work the reference loop does."""
     from audit.engine import Options, add_mass_flow, add_properties, add_sizing, case_table
-    from audit.loader import load_linelist
+    from audit.io.loader import load_linelist
 
     ll = load_linelist(Path(path))
     t0 = time.perf_counter()

@@ -61,6 +61,12 @@ VALID = {
     "duty": lambda r: r.choice(["", "continuous", "startup", "emergency", "intermittent"]),
     "criticality": lambda r: r.choice(["", "high", "low"]),
     "dissolved_gas": lambda r: r.choice(["", "", "yes"]),
+    # signal names are only text without --history: any text is accepted and kept
+    "hist_flow": lambda r: r.choice(["", "FI-101.PV", "FI-101.PV [t/h]"]),
+    "hist_p_in": lambda r: r.choice(["", "PI-101A"]),
+    "hist_p_out": lambda r: r.choice(["", "PI-101B [barg]"]),
+    "hist_t_in": lambda r: r.choice(["", "TI-101"]),
+    "hist_travel": lambda r: r.choice(["", "ZI-101 [%]"]),
     "flow": lambda r: r.choice([f"{r.uniform(1, 100):.3g}", f"{r.uniform(100, 9000):.4g} kg/h", "800 Nm3/h", "20 gpm"]),
     "p_in": lambda r: r.choice([f"{r.uniform(3, 60):.3g}", f"{r.uniform(2, 40):.3g} barg"]),
     "p_out": lambda r: r.choice(["1.5", "0.4 barg", "2"]),

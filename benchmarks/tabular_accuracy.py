@@ -3,7 +3,7 @@
 Prints, per fluid, the largest relative error on density over a grid of liquid and gas states
 away from saturation, the same for states 2 % to 20 % either side of the saturation curve, and
 the error on the saturation pressure, evaluated through the audit's own code path
-(audit.properties.inlet_properties).  What it showed decided the default: tables are well
+(audit.fluid.properties.inlet_properties).  What it showed decided the default: tables are well
 inside 0.1 % away from saturation and far outside it beside the curve, where control valves
 often work (flashing and cavitating liquids, gases near their dew point), so the audit uses the
 full equation of state (HEOS) by default and takes a tabular backend only when asked.  The audit's --backend option takes a tabular
@@ -34,7 +34,7 @@ def errors(fluid: str, backend: str = "BICUBIC&HEOS") -> dict[str, float]:
     and vapour pressure."""
     import CoolProp.CoolProp as CP
 
-    from audit.properties import inlet_properties, resolve_fluid
+    from audit.fluid.properties import inlet_properties, resolve_fluid
 
     f, _ = resolve_fluid(fluid)
     p_bar, t_c = FLUIDS[fluid]

@@ -13,8 +13,8 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
 from audit.engine import compute  # noqa: E402
-from audit.loader import load_linelist  # noqa: E402
-from audit.outputs import results_table  # noqa: E402
+from audit.io.loader import load_linelist  # noqa: E402
+from audit.io.outputs import results_table  # noqa: E402
 
 PAGE = ROOT / "docs" / "worked-example.md"
 

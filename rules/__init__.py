@@ -13,7 +13,7 @@ import pandas as pd
 
 from .base import Rule, Severity, combine
 
-_NOT_RULES = {"base", "severity"}
+_NOT_RULES = {"base", "severity", "levels", "docs"}  # the interface and its tables, not rules
 
 
 @lru_cache(maxsize=1)

@@ -10,24 +10,13 @@ row, a code, a severity and one plain sentence with the numbers in it.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from enum import IntEnum
 from typing import Callable
 
 import numpy as np
 import pandas as pd
 
-
-class Severity(IntEnum):
-    """How soon a finding needs someone's attention, in our own words."""
-    CLEAR = 0   # nothing found
-    NOTE = 1    # worth knowing: data or assumptions
-    WATCH = 2   # near a limit: check at the next opportunity
-    PLAN = 3    # past a limit: plan a fix for the next window
-    URGENT = 4  # the valve cannot do its job, or people may be exposed
-
-    @property
-    def label(self) -> str:
-        return {0: "clear", 1: "note", 2: "watch", 3: "plan", 4: "urgent"}[int(self)]
+from .levels import Severity
+from .severity import severity_of
 
 
 @dataclass(frozen=True)
@@ -86,8 +75,6 @@ def findings(mask: np.ndarray, code: str, sentence: Callable[[int], str],
     value: per case row, how bad the finding is there (larger is worse); it picks the case a
     valve's sentence quotes.  Without it, the earliest case is quoted.
     """
-    from .severity import severity_of
-
     rows = np.flatnonzero(mask)
     if rows.size == 0:
         return empty_findings()

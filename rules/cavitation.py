@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from audit.noise_liquid import estimate_xfz, xfz_at_inlet
+from audit.iec.noise_liquid import estimate_xfz, xfz_at_inlet
 
 from .base import Rule, RuleResult, Threshold, col, combine, findings, text, valid
 

@@ -1,9 +1,9 @@
 """Valve noise, A-weighted 1 m from the downstream pipe wall.
 
 Liquids: IEC 60534-8-4:2015 (hydrodynamic: turbulent and cavitating), see
-audit/noise_liquid.py.  Gases and vapours: IEC 60534-8-3:2010 (aerodynamic,
+audit/iec/noise_liquid.py.  Gases and vapours: IEC 60534-8-3:2010 (aerodynamic,
 five regimes, outlet-flow noise above outlet Mach 0.3), see
-audit/noise_gas.py.  Where a method does not apply or an input is missing
+audit/iec/noise_gas.py.  Where a method does not apply or an input is missing
 the case carries no number and `noise_note` says why.
 
 The limit is 85 dBA by default, the usual occupational exposure action level
@@ -13,7 +13,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from audit import noise_gas, noise_liquid, pipes
+from audit.iec import noise_gas
+from audit.iec import noise_liquid
+from audit.io import pipes
 
 from .base import (Rule, RuleResult, Threshold, col, combine, findings, limit_source, per_valve, text,
                    valid)

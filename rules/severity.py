@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from .base import Severity
+from .levels import Severity
 
 U, P, W, N = Severity.URGENT, Severity.PLAN, Severity.WATCH, Severity.NOTE
 
@@ -94,6 +94,9 @@ TABLE: tuple[Grade, ...] = (
           "Carucci and Mueller (1982) sound power, Energy Institute (2008) guidelines; limit common practice"),
     Grade("TRAVEL_MISMATCH", "observed_travel", W, "observed travel differs from predicted by observed_travel.gap_pct",
           "trim wear, a wrong rated Cv on record, or process data that do not describe the case", "common practice"),
+    Grade("TRAVEL_DRIFT", "travel_drift", W, "the history's observed-minus-predicted travel trend above "
+          "observed_travel.drift_pct_per_month over at least observed_travel.drift_min_days",
+          "a gap that grows month by month: trim wear, a positioner or transmitter drifting", "common practice"),
     Grade("BODY_SMALL", "body_size", N, "body more than body.size_steps nominal sizes below the upstream line",
           "unusual: confirm the valve size and the line size in the data", "common practice"),
     Grade("CV_IMPLAUSIBLE", "rated_cv", N, "rated Cv above body.cv_per_in2 times the body size in inches squared",
@@ -190,25 +193,3 @@ def markdown_table() -> str:
     lines += ["", "| findings | when | becomes |", "|---|---|---|"]
     lines += [f"| {a} | {b} | {c} |" for a, b, c in ADJUSTMENTS]
     return "\n".join(lines) + "\n"
-
-
-def update_doc(path) -> None:
-    """Rewrite the two generated parts of docs/severity.md (the table and the thresholds) from the code."""
-    from pathlib import Path
-
-    from . import all_rules
-
-    page = Path(path).read_text(encoding="utf-8")
-    start, end = page.index("| finding | family | level |"), page.index("\nThe second table says")
-    page = page[:start] + markdown_table() + page[end:]
-    rows = ["| rule | threshold | default | unit | source | meaning |", "|---|---|---|---|---|---|"]
-    rows += [f"| {r.code} | `{t.name}` | {t.default:g} | {t.unit} | {t.source} | {t.meaning} |"
-             for r in all_rules() for t in r.thresholds]
-    start, end = page.index("| rule | threshold | default |"), page.index("\n\nA site rule file")
-    Path(path).write_text(page[:start] + "\n".join(rows) + page[end:], encoding="utf-8")
-
-
-if __name__ == "__main__":  # python -m rules.severity docs/severity.md
-    import sys
-
-    update_doc(sys.argv[1] if len(sys.argv) > 1 else "docs/severity.md")

@@ -8,7 +8,7 @@ The list exercises every column of docs/input.md: gauge and
 absolute pressures, US and SI units in headers and cells, volumetric,
 mass and standard gas flows, a fourth case (startup), CoolProp fluids, a
 mixture and custom fluids, typical factors by valve style, schedules and
-inside diameters, historian travel and per-valve limits.  Some valves were
+inside diameters, historian travel, historian signal names (HISTORY) and per-valve limits.  Some valves were
 built to choke, cavitate or flash at their max case (see BUILT_TO); others
 to show what the service columns (intent, duty, criticality, dissolved gas)
 and the controllability and body checks do (see BUILT_FOR).
@@ -32,7 +32,34 @@ COLUMNS = [
     "valve_size", "rated_cv", "rated_kv", "characteristic", "rangeability", "fl", "xt", "fd", "valve_style", "xfz",
     "pipe_in_id", "pipe_out_id", "pipe_in_size", "pipe_in_schedule", "pipe_out_size", "pipe_out_schedule",
     "pipe_out_wall", "noise_limit [dBA]", "velocity_limit [m/s]", "noise_an", "noise_stp", "intent", "duty", "criticality", "dissolved_gas",
+    "hist_flow", "hist_p_in", "hist_p_out", "hist_t_in", "hist_travel",
 ]
+
+# The historian signals of the valves that have process history (make_history.py writes a month of it).
+# A quantity left out is taken from the valve's cases (history.csv's `assumed` column says which).
+HISTORY = {
+    "LV-1201": {"flow": "FI-1201.PV", "travel": "LV-1201.OP"},
+    "LV-1203": {"flow": "FI-1203.PV", "p_in": "PI-1203A.PV", "p_out": "PI-1203B.PV", "travel": "LV-1203.OP"},
+    "FV-2103": {"flow": "FI-2103.PV", "p_in": "PI-2103A.PV", "p_out": "PI-2103B.PV", "t_in": "TI-2103.PV",
+                "travel": "FV-2103.OP"},
+    "FV-2104": {"flow": "FI-2104.PV", "p_in": "PI-2104A.PV", "p_out": "PI-2104B.PV", "travel": "FV-2104.OP"},
+    "LV-2201": {"flow": "FI-2201.PV", "p_in": "PI-2201A.PV", "travel": "LV-2201.OP"},
+    "FV-2106": {"flow": "FI-2106.PV", "p_in": "PI-2106A.PV", "p_out": "PI-2106B.PV", "travel": "FV-2106.OP"},
+    "PV-3102": {"flow": "FI-3102.PV", "p_in": "PI-3102A.PV", "p_out": "PI-3102B.PV", "t_in": "TI-3102.PV",
+                "travel": "PV-3102.OP"},
+    "FV-3103": {"flow": "FI-3103.PV", "p_in": "PI-3103A.PV", "p_out": "PI-3103B.PV", "travel": "FV-3103.OP"},
+    "FV-4107": {"flow": "FI-4107.PV", "p_in": "PI-4107A.PV", "p_out": "PI-4107B.PV", "travel": "FV-4107.OP"},
+    "PV-5101": {"flow": "FI-5101.PV", "p_in": "PI-5101A.PV", "p_out": "PI-5101B.PV", "t_in": "TI-5101.PV",
+                "travel": "PV-5101.OP"},
+}
+# What the history was built to show (tests/test_history.py checks each).
+HISTORY_BUILT_FOR = {
+    "drift": "FV-2103",       # observed travel drifts away from predicted, about 4.5 points a month
+    "stuck": "PV-3102",       # inlet pressure transmitter flat for three days while flow moves
+    "gap": "FV-3103",         # outlet pressure missing for ten hours (in the long-layout file)
+    "shutdown": "FV-2104",    # area 200 shut down for a day: flow near zero, valves closed
+    "bad_quality": "LV-1201", # 'Shutdown', 'Bad' and 'I/O Timeout' strings in its flow signal
+}
 
 # What the sample was built to show at the max case (tests check the audit finds it).
 BUILT_TO = {
@@ -305,6 +332,9 @@ V += [
 
 
 def main() -> None:
+    for r in V:
+        for quantity, signal in HISTORY.get(r["tag"], {}).items():
+            r[f"hist_{quantity}"] = signal
     rows = [{k: r.get(k, r.get(_bare(k), "")) for k in COLUMNS} for r in V]
     with open(HERE / "fenmoor_unit.csv", "w", newline="", encoding="utf-8") as fh:
         writer = csv.DictWriter(fh, fieldnames=COLUMNS, lineterminator="\n")

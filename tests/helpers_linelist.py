@@ -2,7 +2,7 @@
 from pathlib import Path
 
 from audit.engine import Options, compute
-from audit.loader import load_linelist
+from audit.io.loader import load_linelist
 
 
 def audit_rows(tmp_path: Path, header: str, rows: list[str], name="l.csv", options: Options | None = None):

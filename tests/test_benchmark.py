@@ -5,7 +5,7 @@ import numpy as np
 
 import bench_audit
 from audit.engine import compute
-from audit.loader import load_linelist
+from audit.io.loader import load_linelist
 from synthetic import make_linelist
 
 

@@ -158,7 +158,7 @@ def test_output_folder_that_is_a_file_is_refused_before_the_audit(tmp_path):
 
 def test_one_inch_trim_fits_a_dn25_body(tmp_path):
     # Trims meet bodies by nominal size: '1 in' (25.4 mm) and DN25 (25 mm) are the same nominal size.
-    from audit.pipes import nominal_dn
+    from audit.io.pipes import nominal_dn
     import numpy as np
     assert nominal_dn(np.array([0.0254]))[0] == nominal_dn(np.array([0.025]))[0] == 25
     assert nominal_dn(np.array([0.0762]))[0] == 80

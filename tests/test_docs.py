@@ -3,7 +3,7 @@ import re
 
 import pytest
 
-from audit.loader import CASE_FIELDS, KNOWN
+from audit.io.columns import CASE_FIELDS, KNOWN
 from conftest import ROOT
 
 DOCS = ROOT / "docs"
@@ -47,8 +47,8 @@ def _tables(text: str) -> list[list[dict]]:
 
 def test_worked_example_numbers_are_those_of_a_fresh_run():
     from audit.engine import compute
-    from audit.loader import load_linelist
-    from audit.outputs import results_table
+    from audit.io.loader import load_linelist
+    from audit.io.outputs import results_table
 
     audit = compute(load_linelist(ROOT / "tests" / "data" / "plain.csv"))
     results = results_table(audit.cases).set_index(["tag", "case"])

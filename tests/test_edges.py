@@ -14,8 +14,8 @@ import CoolProp.CoolProp as CP
 from CoolProp import AbstractState
 
 from audit.engine import compute
-from audit.loader import load_linelist
-from audit.properties import hem_sound_speed
+from audit.io.loader import load_linelist
+from audit.fluid.properties import hem_sound_speed
 from conftest import ROOT, SAMPLE_CSV
 from helpers_linelist import audit_rows
 from rules.vibration import sound_power_level
@@ -144,7 +144,7 @@ def test_aiv_sound_power_follows_its_exponents():
 
 def test_compare_calls_a_noise_finding_that_can_no_longer_be_predicted_not_cleared():
     import pandas as pd
-    from audit.compare import compare_frames
+    from audit.studies.compare import compare_frames
     old = pd.DataFrame({"tag": ["V"], "worst_case": ["max"], "choke_ratio_max": ["0.9"], "finding_codes": ["NOISE"]})
     new = old.assign(finding_codes=["NOISE_NO_DATA"])
     changes = compare_frames(old, new)

@@ -15,8 +15,8 @@ from typer.testing import CliRunner
 
 from audit.cli import app
 from audit.engine import compute
-from audit.loader import load_linelist
-from audit.outputs import STAGE_PREFIX
+from audit.io.loader import load_linelist
+from audit.io.outputs import STAGE_PREFIX
 
 HEADER = "tag,fluid,valve_size,rated_cv,fl,fd,xt,flow_max,p_in_max,p_out_max,t_in_max"
 GOOD = "Water,50,40,0.9,0.46,0.7,10,10,2,20"
@@ -192,7 +192,7 @@ def test_worker_processes_are_asked_to_die_with_their_parent():
     # prctl(PR_SET_PDEATHSIG) in the worker initializer: checked in a forked child, which reads it back.
     if not sys.platform.startswith("linux"):
         pytest.skip("PR_SET_PDEATHSIG is Linux's")
-    code = ("import ctypes, signal; from audit.report import die_with_parent; die_with_parent(); "
+    code = ("import ctypes, signal; from audit.report.parallel import die_with_parent; die_with_parent(); "
             "libc = ctypes.CDLL('libc.so.6'); sig = ctypes.c_int(); libc.prctl(2, ctypes.byref(sig)); "
             "print(sig.value == int(signal.SIGKILL))")
     r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
@@ -217,7 +217,7 @@ def test_formula_without_a_stored_value_rejects_its_row_by_name(tmp_path):
 def test_workbook_unpacking_over_the_limit_is_refused_before_parsing(tmp_path):
     # The zip directory's uncompressed sizes are summed before anything is unpacked (a megabyte can hold a
     # gigabyte-long string); here the limit is lowered instead of building such a file.
-    from audit.loader import InputError, Limits
+    from audit.io.loader import InputError, Limits
     book = Workbook()
     book.active.append(HEADER.split(","))
     book.save(tmp_path / "w.xlsx")

@@ -12,8 +12,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from audit.engine import compute
-from audit.loader import load_linelist
-from audit.outputs import results_table
+from audit.io.loader import load_linelist
+from audit.io.outputs import results_table
 
 HEADER = ["tag", "fluid", "phase", "valve_size", "rated_cv", "fl", "xt", "fd", "valve_style", "pipe_in_id",
           "pipe_out_size", "pipe_out_schedule", "characteristic", "flow_max", "p_in_max", "p_out_max", "t_in_max",

@@ -10,8 +10,8 @@ import pytest
 from openpyxl import Workbook
 
 from audit.engine import Options, compute
-from audit.loader import load_linelist
-from audit.outputs import neutralise
+from audit.io.loader import load_linelist
+from audit.io.outputs import neutralise
 from audit.pipeline import run_files
 
 HEADER = ["tag", "service", "fluid", "phase", "valve_size", "rated_cv", "fl", "xt", "fd", "pipe_in_id",
@@ -171,7 +171,7 @@ def test_xlsx_formulas_are_not_evaluated(tmp_path):
 
 
 def test_oversized_input_is_refused(tmp_path):
-    from audit.loader import InputError, Limits
+    from audit.io.loader import InputError, Limits
     path = _write_csv(tmp_path / "h.csv", [r for r, _ in ROWS])
     with pytest.raises(InputError, match="rows"):
         load_linelist(path, limits=Limits(max_rows=5))

@@ -9,7 +9,7 @@ from typer.testing import CliRunner
 
 from audit.cli import app
 from audit.engine import compute
-from audit.loader import load_linelist
+from audit.io.loader import load_linelist
 from conftest import ROOT
 
 DATA = ROOT / "tests" / "data"

@@ -14,7 +14,7 @@ from hypothesis import given, settings, strategies as st
 import CoolProp.CoolProp as CP
 from CoolProp import AbstractState
 
-from audit.properties import inlet_properties, resolve_fluid
+from audit.fluid.properties import inlet_properties, resolve_fluid
 
 GOLDEN = (np.sqrt(5.0) - 1.0) / 2.0
 

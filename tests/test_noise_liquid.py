@@ -11,8 +11,8 @@ printed 81.6 dBA is an independent check of the whole.
 import numpy as np
 import pytest
 
-from audit import acoustics
-from audit.noise_liquid import estimate_xfz, liquid_noise
+from audit.iec import acoustics
+from audit.iec.noise_liquid import estimate_xfz, liquid_noise
 
 cv = pytest.importorskip("fluids.control_valve")
 

@@ -5,7 +5,7 @@ import pytest
 
 iapws = pytest.importorskip("iapws")
 
-from audit.properties import inlet_properties, resolve_fluid  # noqa: E402
+from audit.fluid.properties import inlet_properties, resolve_fluid  # noqa: E402
 
 WATER, _ = resolve_fluid("Water")
 GRID = [(p, t) for p in (2e5, 10e5, 50e5, 150e5) for t in (283.15, 323.15, 373.15, 423.15, 473.15, 573.15, 673.15)]

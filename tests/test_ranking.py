@@ -12,7 +12,7 @@ from typer.testing import CliRunner
 
 from audit.cli import app
 from audit.engine import Options, compute
-from audit.loader import load_linelist
+from audit.io.loader import load_linelist
 from conftest import ROOT, SAMPLE_CSV
 from helpers_linelist import audit_rows
 from rules.controllability import installed_gain

@@ -88,7 +88,7 @@ def test_markup_in_line_list_text_appears_as_text(tmp_path):
 
 
 def test_pdf_renderer_fetches_nothing():
-    from audit.report import RefuseEveryUrl, render_pdf
+    from audit.report.pdf import RefuseEveryUrl, render_pdf
     import tempfile, pathlib
     fetcher_calls = []
 
@@ -97,7 +97,7 @@ def test_pdf_renderer_fetches_nothing():
             fetcher_calls.append(url)
             return super().__call__(url, *a, **k)
 
-    import audit.report as report
+    import audit.report.pdf as report
     original = report.RefuseEveryUrl
     report.RefuseEveryUrl = Spy
     try:

@@ -2,7 +2,7 @@
 import numpy as np
 import pytest
 
-from audit.noise_liquid import estimate_xfz, xfz_at_inlet
+from audit.iec.noise_liquid import estimate_xfz, xfz_at_inlet
 from rules.cavitation import levels
 from helpers_linelist import audit_rows
 

@@ -89,7 +89,7 @@ def test_every_sized_case_of_the_sample_has_a_level_or_says_why():
     from pathlib import Path
 
     from audit.engine import Options, compute
-    from audit.loader import load_linelist
+    from audit.io.loader import load_linelist
     sample = Path(__file__).resolve().parent.parent / "sample_linelist" / "fenmoor_unit.csv"
     cases = compute(load_linelist(sample), Options()).cases
     sized = (cases["case_error"] == "") & cases["converged"].astype(bool)

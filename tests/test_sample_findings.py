@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 
 from audit.engine import compute
-from audit.loader import load_linelist
+from audit.io.loader import load_linelist
 from conftest import ROOT, SAMPLE_CSV, SAMPLE_XLSX
 
 spec = importlib.util.spec_from_file_location("make_sample", ROOT / "sample_linelist" / "make_sample.py")

@@ -4,7 +4,7 @@ docstrings) reproduces them.  Kv to Cv: Cv = 1.156 Kv.
 """
 import pytest
 
-from audit.sizing import KV_TO_CV, size_valves
+from audit.iec.sizing import KV_TO_CV, size_valves
 from conftest import gas_case, liquid_case
 
 WATER_90C = dict(rho=965.4, pv=70.1e3, pc=22120e3, mu=3.1472e-4, p1=680e3, p2=220e3, q=360.0)

@@ -25,7 +25,7 @@ from hypothesis import strategies as st
 fluids_cv = pytest.importorskip("fluids.control_valve")
 
 import reference  # noqa: E402  (benchmarks/reference.py: fluids carried to convergence)
-from audit.sizing import N18, size_valves  # noqa: E402
+from audit.iec.sizing import N18, size_valves  # noqa: E402
 from conftest import R  # noqa: E402
 
 TOL = 5e-3

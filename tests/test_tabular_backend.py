@@ -9,7 +9,7 @@ import numpy as np
 
 import tabular_accuracy
 from audit.engine import Options, compute
-from audit.loader import load_linelist
+from audit.io.loader import load_linelist
 from conftest import SAMPLE_CSV
 
 

@@ -2,15 +2,15 @@
 import numpy as np
 import pytest
 
-from audit.sizing import flow_through, size_valves
-from audit.characteristic import cv_ratio_at_travel
+from audit.iec.sizing import flow_through, size_valves
+from audit.iec.characteristic import cv_ratio_at_travel
 from conftest import R
 
 
 def test_no_pressure_drop_with_flow_is_reported_not_crashed(tmp_path):
     # Same pressure on both sides: a valve passes no flow, so the case cannot be met.
     from audit.engine import compute
-    from audit.loader import load_linelist
+    from audit.io.loader import load_linelist
     f = tmp_path / "l.csv"
     f.write_text("tag,fluid,valve_size,rated_cv,fl,fd,xt,flow_max,p_in_max,p_out_max,t_in_max,"
                  "flow_norm,p_in_norm,p_out_norm,t_in_norm\n"

@@ -2,8 +2,8 @@
 import pytest
 
 from audit.engine import compute
-from audit.loader import load_linelist
-from audit.units import split_number, unit_rule
+from audit.io.loader import load_linelist
+from audit.io.units import split_number, unit_rule
 
 COLUMNS = "tag,fluid,valve_size,rated_cv,fl,fd,xt,flow_max,p_in_max,p_out_max,t_in_max,pipe_in_id,pipe_out_id\n"
 

@@ -8,8 +8,8 @@ from typer.testing import CliRunner
 
 from audit.cli import app
 from audit.engine import Options, compute
-from audit.loader import load_linelist
-from audit.sizing import size_valves
+from audit.io.loader import load_linelist
+from audit.iec.sizing import size_valves
 from conftest import SAMPLE_CSV
 
 runner = CliRunner()
@@ -131,8 +131,8 @@ TRIMS = """valve_size,rated_cv,characteristic,fl,xt,fd,xfz
 
 def _dn(text: str) -> float:
     """Nominal size DN of a size cell ('80', '3 in'), by the loader's own unit reading."""
-    from audit.pipes import nominal_dn
-    from audit.units import split_number
+    from audit.io.pipes import nominal_dn
+    from audit.io.units import split_number
     value, unit, _ = split_number(text)
     return float(nominal_dn(np.array([value * (0.0254 if unit == "in" else 0.001)]))[0])
 

@@ -23,8 +23,8 @@ matplotlib.rcParams.update({"svg.fonttype": "none", "svg.hashsalt": "valve-audit
 from matplotlib.ticker import MaxNLocator  # noqa: E402
 import matplotlib.pyplot as plt  # noqa: E402
 
-from .characteristic import cv_ratio_at_travel  # noqa: E402
-from .sizing import flow_through  # noqa: E402
+from audit.iec.characteristic import cv_ratio_at_travel  # noqa: E402
+from audit.iec.sizing import flow_through  # noqa: E402
 
 _CASE_MARKERS = ["o", "s", "^", "D", "v", "P", "X", "*"]
 

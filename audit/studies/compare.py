@@ -15,8 +15,8 @@ import numpy as np
 import pandas as pd
 from jinja2 import Environment, select_autoescape
 
-from . import OUTPUT_FORMAT_VERSION
-from .outputs import staged_folder, to_csv_text
+from audit import OUTPUT_FORMAT_VERSION
+from audit.io.outputs import staged_folder, to_csv_text
 
 RATIO_STEP = 0.005  # choke-ratio change below this is rounding, not a change
 CHANGE_COLUMNS = ["tag", "change", "old", "new", "detail"]

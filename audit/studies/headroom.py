@@ -15,9 +15,9 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from . import sizing
-from .characteristic import cv_ratio_at_travel
-from .casetable import size_arrays, sizing_arrays
+from audit.iec import sizing
+from audit.iec.characteristic import cv_ratio_at_travel
+from audit.casetable import size_arrays, sizing_arrays
 
 _BISECTIONS = 40
 CEILING_OUTLET_SHARE = 0.01  # outlet at 1 % of the inlet pressure: past any choke point

@@ -44,7 +44,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import acoustics as ac
+from audit.iec import acoustics as ac
 
 
 AN_GLOBE = -3.8          # acoustic efficiency correction of a globe valve with cage trim

@@ -16,19 +16,24 @@ property the FF factor was built on; the result says so.
 """
 from __future__ import annotations
 
-import difflib
-import re
 from dataclasses import dataclass, field
-from functools import lru_cache
 
 import numpy as np
 
 import CoolProp.CoolProp as CP
 from CoolProp import AbstractState
 
+from audit.fluid.names import MIXTURE_COMPONENT, Fluid, known_fluids, suggest
+
+
 R_GAS = 8.314462618  # J/(mol K)
+
+
 SATURATION_TOLERANCE_K = 1.0  # an inlet this close to its saturation temperature is audited as saturated
+
+
 WET_GAS_MIN = 0.9  # lowest inlet vapour quality sized as a (wet) gas
+
 
 class StateError(ValueError):
     """A state the sizing cannot use, with a message for the plant engineer."""
@@ -37,85 +42,8 @@ class StateError(ValueError):
 INLET_FIELDS = ("rho", "pv", "pc", "mu", "molar_mass", "z", "k", "sound_speed", "h", "t")
 
 
-@lru_cache(maxsize=1)
-def known_fluids() -> list[str]:
-    """CoolProp's pure-fluid names and aliases, for checks and suggestions."""
-    names = set(CP.get_global_param_string("FluidsList").split(","))
-    for name in list(names):
-        aliases = CP.get_fluid_param_string(name, "aliases")
-        names.update(a for a in aliases.split(",") if a)
-    return sorted(names)
-
-
-def suggest(name: str) -> str:
-    close = difflib.get_close_matches(name, known_fluids(), n=3, cutoff=0.6)
-    lower = {n.lower(): n for n in known_fluids()}
-    close += difflib.get_close_matches(name.lower(), list(lower), n=3, cutoff=0.6)
-    unique = []
-    for c in close:
-        c = lower.get(c, c)
-        if c not in unique:
-            unique.append(c)
-    return ", ".join(unique[:3])
-
-
-_COMPONENT = re.compile(r"^\s*([^\[\]&]+?)\s*\[\s*([0-9.eE+-]+)\s*\]\s*$")
-
-
-@dataclass(frozen=True)
-class Fluid:
-    """A resolved fluid: CoolProp names of its components and their mole fractions."""
-    components: tuple[str, ...]
-    fractions: tuple[float, ...] = (1.0,)
-
-    @property
-    def is_mixture(self) -> bool:
-        return len(self.components) > 1
-
-
-def resolve_fluid(text: str) -> tuple[Fluid | None, str]:
-    """Parse a `fluid` cell: a CoolProp name, or a mixture 'A[0.9]&B[0.1]'.
-
-    Returns (fluid, '') or (None, message with the nearest known names).
-    """
-    text = str(text).strip()
-    if "&" in text or "[" in text:
-        parts = text.split("&")
-        comps, fracs = [], []
-        for part in parts:
-            m = _COMPONENT.match(part)
-            if not m:
-                return None, (f"column 'fluid': '{text[:60]}' is not a mixture of the form "
-                              "'Methane[0.9]&Ethane[0.1]'")
-            comps.append(m.group(1))
-            fracs.append(float(m.group(2)))
-        for c in comps:
-            if c not in known_fluids():
-                return None, f"column 'fluid': unknown component '{c[:40]}'; nearest CoolProp names: {suggest(c)}"
-        twice = sorted({c for c in comps if comps.count(c) > 1})
-        if twice:
-            return None, f"column 'fluid': component '{twice[0][:40]}' appears twice in '{text[:60]}'; name it once"
-        total = sum(fracs)
-        if not all(f > 0 for f in fracs) or abs(total - 1.0) > 0.01:
-            return None, f"column 'fluid': mole fractions in '{text[:60]}' must be positive and add up to 1 (they add up to {total:g})"
-        fluid = Fluid(tuple(comps), tuple(f / total for f in fracs))
-        try:
-            _state_for(fluid, "HEOS")  # CoolProp needs interaction data for every pair: ask now, per row
-        except ValueError as exc:
-            return None, f"column 'fluid': CoolProp cannot model the mixture '{text[:60]}' ({str(exc)[:120]})"
-        return fluid, ""
-    if text not in known_fluids():
-        lower = {n.lower(): n for n in known_fluids()}
-        if text.lower() in lower:
-            return Fluid((lower[text.lower()],)), ""
-        hint = suggest(text)
-        return None, (f"column 'fluid': unknown fluid '{text[:40]}'; expected a CoolProp name"
-                      + (f" (nearest: {hint})" if hint else "") + " or 'custom'")
-    return Fluid((text,)), ""
-
-
 @dataclass
-class _State:
+class State:
     """The reusable AbstractState of one fluid and its cache of evaluated states."""
     fluid: Fluid
     backend: str
@@ -136,17 +64,17 @@ class _State:
             self.tc = self.state.T_critical()
 
 
-_STATES: dict[tuple[Fluid, str], _State] = {}
+_STATES: dict[tuple[Fluid, str], State] = {}
 
 
-def _state_for(fluid: Fluid, backend: str) -> _State:
+def state_for(fluid: Fluid, backend: str) -> State:
     key = (fluid, backend)
     if key not in _STATES:
-        _STATES[key] = _State(fluid, backend)
+        _STATES[key] = State(fluid, backend)
     return _STATES[key]
 
 
-def _saturation_pressure(st: _State, t: float) -> float:
+def saturation_pressure(st: State, t: float) -> float:
     """Saturation (pure) or bubble-point (mixture) pressure at t [K]; NaN above critical."""
     if not st.fluid.is_mixture and t >= st.tc:
         return float("nan")
@@ -154,7 +82,7 @@ def _saturation_pressure(st: _State, t: float) -> float:
     return st.state.p()
 
 
-def _sound_speed(s: AbstractState) -> float:
+def sound_speed_of(s: AbstractState) -> float:
     """Speed of sound [m/s] of the current state; NaN where CoolProp has none (two-phase, some backends)."""
     try:
         return s.speed_sound()
@@ -177,7 +105,7 @@ def isentropic_exponent(rho: float, sound: float, p: float) -> float:
     return float("nan")
 
 
-def _ideal_ratio(st: _State) -> float:
+def _ideal_ratio(st: State) -> float:
     """cp0/cv0 of the ideal gas at the current temperature; NaN where the backend has none."""
     try:
         cp0 = st.state.cp0mass()
@@ -186,9 +114,9 @@ def _ideal_ratio(st: _State) -> float:
     return cp0 / (cp0 - R_GAS / (st.molar_mass / 1000.0))
 
 
-def _read(st: _State, phase: str, pv: float) -> tuple:
+def _read(st: State, phase: str, pv: float) -> tuple:
     s = st.state
-    sound = _sound_speed(s)
+    sound = sound_speed_of(s)
     rho = s.rhomass()
     z = s.p() * st.molar_mass / 1000.0 / (rho * R_GAS * s.T())  # Z = p M / (rho R T); not every backend has it
     if phase == "gas":
@@ -200,7 +128,7 @@ def _read(st: _State, phase: str, pv: float) -> tuple:
     return (rho, pv, st.pc, s.viscosity(), st.molar_mass, z, kappa, sound, s.hmass(), s.T())
 
 
-def _inlet_state(st: _State, p: float, t: float, phase_given: str, quality: float = float("nan")) -> tuple:
+def _inlet_state(st: State, p: float, t: float, phase_given: str, quality: float = float("nan")) -> tuple:
     """Properties of one inlet state: (INLET_FIELDS values, phase, note), or raises StateError.
 
     t may be NaN for `t_in = sat` (the saturation temperature at p); quality is the row's
@@ -221,7 +149,7 @@ def _inlet_state(st: _State, p: float, t: float, phase_given: str, quality: floa
         return _read(st, phase, pv), phase, ""
     if not np.isfinite(t) or np.isfinite(quality):
         return _saturated_inlet(st, p, phase_given, quality)
-    psat = _saturation_pressure(st, t)
+    psat = saturation_pressure(st, t)
     if np.isnan(psat):
         phase = phase_given or "gas"  # supercritical: compressible-flow equations
         s.update(CP.PT_INPUTS, p, t)
@@ -247,7 +175,7 @@ def _inlet_state(st: _State, p: float, t: float, phase_given: str, quality: floa
     return _read(st, phase, psat), phase, ""
 
 
-def _saturation_temperature(st: _State, p: float) -> float:
+def _saturation_temperature(st: State, p: float) -> float:
     """Saturation temperature [K] of a pure fluid at p; NaN at or above the critical pressure."""
     if p >= st.pc:
         return float("nan")
@@ -258,7 +186,7 @@ def _saturation_temperature(st: _State, p: float) -> float:
     return st.state.T()
 
 
-def _saturated_inlet(st: _State, p: float, phase_given: str, quality: float) -> tuple:
+def _saturated_inlet(st: State, p: float, phase_given: str, quality: float) -> tuple:
     """A saturated or wet inlet at p: saturated liquid (quality 0), saturated vapour (1), or wet vapour.
 
     Wet vapour of quality WET_GAS_MIN or more (wet steam) is sized as a gas with the homogeneous
@@ -296,9 +224,9 @@ def _saturated_inlet(st: _State, p: float, phase_given: str, quality: float) -> 
                                "(common practice for wet steam; two-phase inlets are outside IEC 60534-2-1)")
 
 
-def _safe_bubble(st: _State, t: float) -> float:
+def _safe_bubble(st: State, t: float) -> float:
     try:
-        return _saturation_pressure(st, t)
+        return saturation_pressure(st, t)
     except ValueError:
         return float("nan")
 
@@ -336,7 +264,7 @@ def inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray,
         fluid = fluids[i]
         if fluid is None or not np.isfinite(p[i]):
             continue
-        st = _state_for(fluid, backend)
+        st = state_for(fluid, backend)
         # NaN (t_in 'sat', no quality) becomes a sentinel: NaN != NaN would make every such key a miss.
         key = (round(float(p[i]), 3), _key_number(t[i]), phase_given[i], _key_number(quality[i]))
         if key not in st.cache:
@@ -361,143 +289,6 @@ def inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray,
         values, out["phase"][i], out["note"][i] = value
         for name, v in zip(INLET_FIELDS, values):
             out[name][i] = v
-    return out
-
-
-def _mixture_gas_outlet(st: _State, h: float, p: float, t_guess: float):
-    """(h, p) state of a single-phase gas mixture by a secant on T with (p, T) flashes.
-
-    CoolProp's direct (h, p) flash of a mixture takes about 0.4 s; a secant on
-    temperature with (p, T) flashes of 15 ms each gets the same state to 1e-3 K in a
-    handful of steps.  Returns None where the outlet turns two-phase (the caller then
-    uses the direct flash).
-    """
-    s = st.state
-
-    def h_at(t):
-        s.update(CP.PT_INPUTS, p, t)
-        return s.hmass() - h
-
-    t0, t1 = t_guess, t_guess - 5.0
-    f0, f1 = h_at(t0), h_at(t1)
-    for _ in range(20):
-        if f1 == f0:
-            break
-        t0, t1, f0 = t1, t1 - f1 * (t1 - t0) / (f1 - f0), f1
-        f1 = h_at(t1)
-        if abs(t1 - t0) < 1e-3:
-            break
-    q = s.Q()
-    if 0.0 <= q <= 1.0 or abs(f1) > 1.0:
-        return None
-    return (1.0, s.rhomass(), s.T(), _sound_speed(s))
-
-
-def _pure_gas_outlet(st: _State, h: float, p: float, t_guess: float):
-    """(h, p) state of a pure-fluid gas by Newton steps on T with (p, T) updates.
-
-    Two (p, T) updates (about 20 us each) usually land within 1e-6 of h, against 70 us for
-    the direct (h, p) flash.  Returns None if the state leaves the gas side, so the caller
-    uses the direct flash, which handles a wet outlet.
-    """
-    s = st.state
-    t = t_guess
-    for _ in range(4):
-        s.update(CP.PT_INPUTS, p, t)
-        if s.phase() in (CP.iphase_liquid, CP.iphase_supercritical_liquid, CP.iphase_twophase):
-            return None
-        miss = s.hmass() - h
-        if abs(miss) < 1e-7 * abs(h) + 1e-3:
-            return (1.0, s.rhomass(), s.T(), _sound_speed(s))
-        t = t - miss / s.cpmass()
-        if not (st.state.Tmin() < t < st.state.Tmax()):
-            return None
-        if st.tc > t and p > _saturation_pressure(st, t):
-            return None  # below the dew point: the outlet is wet
-    return None
-
-
-def isenthalpic_outlet(fluids: list[Fluid | None], p_out: np.ndarray, h_in: np.ndarray,
-                       backend: str = "HEOS", t_in: np.ndarray | None = None,
-                       gas: np.ndarray | None = None) -> dict[str, np.ndarray]:
-    """State after an isenthalpic expansion to p_out: vapour mass fraction and density.
-
-    fluids: per case (None skips the case); p_out [Pa abs]; h_in: inlet
-    specific enthalpy [J/kg].  Returns quality (0 liquid, 1 vapour, between
-    for a flashing mixture), density [kg/m3], t [K], sound_speed [m/s]
-    (single phase: the fluid's; two-phase: the homogeneous-equilibrium one,
-    ``hem_sound_speed``), error.  Energy balance of an adiabatic valve with
-    negligible kinetic energy change: h_out = h_in.  t_in [K] and gas (bool)
-    per case, when given, let gas mixtures take the faster secant route.
-    """
-    n = len(fluids)
-    quality = np.full(n, np.nan)
-    rho = np.full(n, np.nan)
-    temp = np.full(n, np.nan)
-    sound = np.full(n, np.nan)
-    error = np.full(n, "", dtype=object)
-    for i in range(n):
-        fluid = fluids[i]
-        if fluid is None or not (np.isfinite(p_out[i]) and np.isfinite(h_in[i])):
-            continue
-        st = _state_for(fluid, backend)
-        key = ("hp", round(float(p_out[i]), 3), round(float(h_in[i]), 3))
-        if key not in st.cache and gas is not None and gas[i]:
-            shortcut = _mixture_gas_outlet if fluid.is_mixture else _pure_gas_outlet
-            try:
-                found = shortcut(st, float(h_in[i]), float(p_out[i]), float(t_in[i]))
-            except ValueError:
-                found = None
-            if found is not None:
-                st.cache[key] = found
-        if key not in st.cache:
-            try:
-                st.state.update(CP.HmassP_INPUTS, float(h_in[i]), float(p_out[i]))
-                q = st.state.Q()
-                two_phase = 0.0 <= q <= 1.0
-                if not two_phase:
-                    q = 1.0 if st.state.phase() in (CP.iphase_gas, CP.iphase_supercritical_gas) else 0.0
-                rho_out, temp_out = st.state.rhomass(), st.state.T()
-                c = hem_sound_speed(st.state, float(p_out[i]), st.state.smass()) if two_phase \
-                    else _sound_speed(st.state)
-                st.cache[key] = (q, rho_out, temp_out, c)
-            except ValueError as exc:
-                if backend != "HEOS":  # outside a tabular backend's range: the full equation of state
-                    full = isenthalpic_outlet([fluid], p_out[i:i + 1], h_in[i:i + 1], "HEOS",
-                                              None if t_in is None else t_in[i:i + 1], None if gas is None else gas[i:i + 1])
-                    st.cache[key] = full["error"][0] or tuple(full[k][0] for k in ("quality", "rho", "t", "sound_speed"))
-                else:
-                    st.cache[key] = f"CoolProp could not flash to the outlet pressure ({str(exc)[:120]})"
-        value = st.cache[key]
-        if isinstance(value, str):
-            error[i] = value
-            continue
-        quality[i], rho[i], temp[i], sound[i] = value
-    return {"quality": quality, "rho": rho, "t": temp, "sound_speed": sound, "error": error}
-
-
-def standard_density(fluids: list[Fluid | None], t_std: np.ndarray, p_std: np.ndarray,
-                     backend: str = "HEOS") -> np.ndarray:
-    """Density [kg/m3] of each fluid as a gas at its standard-volume reference state (t_std [K], p_std [Pa]).
-
-    Real gas (CoolProp) where the fluid is a gas there; NaN where it is not (it would be liquid, or
-    CoolProp has no state), so the caller falls back to the ideal gas and says so.  For propane at
-    15 degC and 101.325 kPa the real gas is about 1.8 % denser than the ideal one.
-    """
-    out = np.full(len(fluids), np.nan)
-    for i, fluid in enumerate(fluids):
-        if fluid is None or not (np.isfinite(t_std[i]) and np.isfinite(p_std[i])):
-            continue
-        st = _state_for(fluid, backend)
-        key = ("std", float(t_std[i]), float(p_std[i]))
-        if key not in st.cache:
-            try:
-                st.state.update(CP.PT_INPUTS, float(p_std[i]), float(t_std[i]))
-                gas = st.state.phase() in (CP.iphase_gas, CP.iphase_supercritical_gas, CP.iphase_supercritical)
-                st.cache[key] = st.state.rhomass() if gas else float("nan")
-            except ValueError:
-                st.cache[key] = float("nan")
-        out[i] = st.cache[key]
     return out
 
 
@@ -527,3 +318,44 @@ def hem_sound_speed(state: AbstractState, p: float, s: float) -> float:
 def ideal_gas_density(p, t, molar_mass, z):
     """Gas density rho = p M / (Z R T) [kg/m3]; p [Pa], t [K], molar_mass [kg/kmol]."""
     return p * molar_mass / 1000.0 / (z * R_GAS * t)
+
+
+def resolve_fluid(text: str) -> tuple[Fluid | None, str]:
+    """Parse a `fluid` cell: a CoolProp name, or a mixture 'A[0.9]&B[0.1]'.
+
+    Returns (fluid, '') or (None, message with the nearest known names).
+    """
+    text = str(text).strip()
+    if "&" in text or "[" in text:
+        parts = text.split("&")
+        comps, fracs = [], []
+        for part in parts:
+            m = MIXTURE_COMPONENT.match(part)
+            if not m:
+                return None, (f"column 'fluid': '{text[:60]}' is not a mixture of the form "
+                              "'Methane[0.9]&Ethane[0.1]'")
+            comps.append(m.group(1))
+            fracs.append(float(m.group(2)))
+        for c in comps:
+            if c not in known_fluids():
+                return None, f"column 'fluid': unknown component '{c[:40]}'; nearest CoolProp names: {suggest(c)}"
+        twice = sorted({c for c in comps if comps.count(c) > 1})
+        if twice:
+            return None, f"column 'fluid': component '{twice[0][:40]}' appears twice in '{text[:60]}'; name it once"
+        total = sum(fracs)
+        if not all(f > 0 for f in fracs) or abs(total - 1.0) > 0.01:
+            return None, f"column 'fluid': mole fractions in '{text[:60]}' must be positive and add up to 1 (they add up to {total:g})"
+        fluid = Fluid(tuple(comps), tuple(f / total for f in fracs))
+        try:
+            state_for(fluid, "HEOS")  # CoolProp needs interaction data for every pair: ask now, per row
+        except ValueError as exc:
+            return None, f"column 'fluid': CoolProp cannot model the mixture '{text[:60]}' ({str(exc)[:120]})"
+        return fluid, ""
+    if text not in known_fluids():
+        lower = {n.lower(): n for n in known_fluids()}
+        if text.lower() in lower:
+            return Fluid((lower[text.lower()],)), ""
+        hint = suggest(text)
+        return None, (f"column 'fluid': unknown fluid '{text[:40]}'; expected a CoolProp name"
+                      + (f" (nearest: {hint})" if hint else "") + " or 'custom'")
+    return Fluid((text,)), ""

@@ -16,10 +16,10 @@ import pandas as pd
 
 from rules.base import Severity
 
-from .characteristic import CHARACTERISTICS, normalise_characteristic
-from .pipes import nominal_dn
-from .reader import InputError, Limits, normalise_header, read_source
-from .units import parse_column
+from audit.iec.characteristic import CHARACTERISTICS, normalise_characteristic
+from audit.io.pipes import nominal_dn
+from audit.io.reader import InputError, Limits, normalise_header, read_source
+from audit.io.units import parse_column
 
 TRIM_COLUMNS = ("valve_size", "rated_cv", "characteristic", "fl", "xt", "fd", "xfz")
 CLEARS_BELOW = Severity.WATCH  # a trim clears a valve when no finding of WATCH or worse remains
@@ -64,7 +64,7 @@ def trim_label(t) -> str:
 
 def candidate_linelist(ll, trims: pd.DataFrame, valve_ids: np.ndarray):
     """A line list of (valve, trim) pairs: each valve of ``valve_ids`` once per trim of its body size."""
-    from .loader import LineList
+    from audit.io.loader import LineList
 
     sizes = ll.valves["valve_size"].to_numpy(float)
     # Bodies and trims meet by nominal size: a trim listed as '1 in' (25.4 mm) fits a DN25 body (25 mm).
@@ -91,7 +91,7 @@ def candidate_linelist(ll, trims: pd.DataFrame, valve_ids: np.ndarray):
 
 def add_trim_alternatives(audit, trims_file: Path) -> None:
     """Add trim_alternative (text) and trim_alternative_cv to ``audit.valves``."""
-    from .engine import compute
+    from audit.engine import compute
 
     trims = read_trims(trims_file)
     v = audit.valves

@@ -38,9 +38,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import acoustics as ac
-from .acoustics import jet_diameter
-from .sizing import KV_TO_CV
+from audit.iec import acoustics as ac
+from audit.iec.acoustics import jet_diameter
+from audit.iec.sizing import KV_TO_CV
 
 AN_GLOBE = -4.6
 STROUHAL_CONSTANT = 0.036

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .sizing import KV_TO_CV
+from audit.iec.sizing import KV_TO_CV
 
 # Nominal third-octave centre frequencies [Hz], 12.5 Hz to 20 kHz (IEC 61260-1).
 BANDS_HZ = np.array([12.5, 16, 20, 25, 31.5, 40, 50, 63, 80, 100, 125, 160, 200, 250, 315, 400, 500,

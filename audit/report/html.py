@@ -1,9 +1,7 @@
-"""Human-readable outputs: report.html (self-contained), report.pdf, and the XLSX work list.
+"""The report's content and page: report.html, self-contained.
 
 All text that comes from the line list goes through Jinja's autoescaping;
-plots are inline SVG generated here.  The PDF renderer gets a URL fetcher
-that refuses every URL (local files included), so nothing in a line list
-can make it read the disk or the network.
+plots are inline SVG drawn by ``plots``.
 """
 from __future__ import annotations
 
@@ -18,8 +16,9 @@ from jinja2 import Environment, PackageLoader, select_autoescape
 from rules import all_rules, effective_thresholds, severity
 from rules.base import Severity
 
-from .outputs import neutralise
-from .ranking import family_summary
+from audit.io.outputs import neutralise
+from audit.ranking import family_summary
+from audit.report.parallel import die_with_parent
 
 SEVERITY_MEANING = {
     Severity.URGENT: "the valve cannot do its job, or people may be exposed: look now",
@@ -92,7 +91,7 @@ def _fmt(x, digits=3) -> str:
 
 
 def _env() -> Environment:
-    return Environment(loader=PackageLoader("audit", "templates"), autoescape=select_autoescape(["html"]),
+    return Environment(loader=PackageLoader("audit.report", "templates"), autoescape=select_autoescape(["html"]),
                        trim_blocks=True, lstrip_blocks=True)
 
 
@@ -130,7 +129,7 @@ def _case_table(cases: pd.DataFrame) -> str:
 
 
 def build_context(audit, meta: dict, plots: bool = True, progress=None) -> dict:
-    from .plots import fleet_svg
+    from audit.report.plots import fleet_svg
 
     valves, cases = audit.valves, audit.cases
     sev_levels = valves["severity_level"].to_numpy(int)
@@ -178,7 +177,10 @@ def build_context(audit, meta: dict, plots: bool = True, progress=None) -> dict:
     if "trim_alternative" in valves:
         trims = [{"tag": v.tag, "codes": v.finding_codes.replace(";", ", "), "alternative": v.trim_alternative}
                  for v in valves.itertuples() if v.trim_alternative]
+    from audit.report.history_view import history_context
+
     return {
+        **history_context(audit),
         "headroom": headroom, "trims": trims,
         "meta": meta, "css": (Path(__file__).parent / "templates" / "report.css").read_text(encoding="utf-8"),
         "counts": {"rows": audit.linelist.rows_total, "audited": len(valves), "rejected": len(audit.rejected),
@@ -214,29 +216,13 @@ PARALLEL_FROM = 60  # plots; below this one process draws them all
 
 def _draw_many(jobs: list[tuple[pd.DataFrame, int]]) -> list[str]:
     """Draw the per-valve panels for (case rows, worst-case position) jobs, in this process."""
-    from .plots import ValvePlots
+    from audit.report.plots import ValvePlots
 
     drawer = ValvePlots()
     try:
         return [_one_plot(drawer, vc, worst) for vc, worst in jobs]
     finally:
         drawer.close()
-
-
-def die_with_parent() -> None:
-    """In a worker process: ask Linux to end it when the audit process dies (a killed run leaves no workers).
-
-    prctl(PR_SET_PDEATHSIG, SIGKILL); elsewhere a no-op.
-    """
-    import ctypes
-    import signal
-    import sys
-
-    if sys.platform.startswith("linux"):
-        try:
-            ctypes.CDLL("libc.so.6", use_errno=True).prctl(1, int(signal.SIGKILL))  # 1 = PR_SET_PDEATHSIG
-        except OSError:
-            pass
 
 
 def _one_plot(drawer, vc: pd.DataFrame, worst: int) -> str:
@@ -311,155 +297,3 @@ def _stage(progress, title: str):
 
 def render_html(context: dict) -> str:
     return _env().get_template("report.html").render(**context)
-
-
-class RefusedFetch(Exception):
-    pass
-
-
-class RefuseEveryUrl:
-    """URL fetcher for the PDF renderer: nothing is fetched, from anywhere, local files included.
-
-    A refusal is a plain error to the renderer (it drops the resource and goes on), not a
-    fatal one, so a stray reference can never stop the run.
-    """
-    _fail_on_errors = False  # read by the renderer when a fetch fails
-    asked: list
-
-    def __init__(self):
-        self.asked = []
-
-    def __call__(self, url: str, *args, **kwargs):
-        self.asked.append(url)
-        raise RefusedFetch(f"the report renderer fetches nothing (asked for {url[:80]!r})")
-
-
-
-def _pdf_bytes(html: str) -> bytes:
-    import logging
-
-    from weasyprint import HTML
-    logging.getLogger("weasyprint").setLevel(logging.ERROR)
-    return HTML(string=html, base_url=None, url_fetcher=RefuseEveryUrl()).write_pdf()
-
-
-PDF_PARALLEL_FROM = 80  # valve sections; a smaller report is one document with "page n of m"
-
-
-def split_for_print(html: str, parts: int) -> list[str]:
-    """The report as ``parts`` documents, cut between valve sections, each with the full styles.
-
-    The renderer is single-threaded and takes some 0.1 s per valve section; cut in parts, the
-    cores share the work and the parts' pages are joined in order.  Page numbers then run per
-    part ("part 2 of 2, page 7").
-    """
-    marker = '<div class="valve">'
-    starts = [i for i in range(len(html)) if html.startswith(marker, i)] if marker in html else []
-    if parts < 2 or len(starts) < PDF_PARALLEL_FROM:
-        return [html]
-    body_at = html.index("<body>") + len("<body>")
-    end_at = html.index('<h2 id="rejected"')
-    head, tail = html[:body_at], html[end_at:html.rindex("</body>")]
-    prefix = html[body_at:starts[0]]
-    bounds = starts + [end_at]
-    # Balance the parts by estimated cost: a valve section is 1, a row of the summary, ranked and
-    # headroom tables about 1/10 of one (measured at 2,000 valves: 0.13 s a section, 10 ms a row).
-    cost = np.r_[prefix.count("<tr") / 10.0, np.ones(len(starts))]
-    edges = np.searchsorted(np.cumsum(cost), np.arange(1, parts) * cost.sum() / parts) - 1
-    edges = np.clip(edges, 1, len(starts) - 1)
-    groups = [g for g in np.split(np.arange(len(starts)), edges) if len(g)]
-    parts = len(groups)
-    docs = []
-    for k, group in enumerate(groups):
-        footer = (f'<style>@page {{ @bottom-center {{ content: "valve-audit screening report, part {k + 1} of '
-                  f'{parts}, page " counter(page); }} }}</style>')
-        middle = html[bounds[group[0]]:bounds[group[-1] + 1]]
-        docs.append(head + footer + (prefix if k == 0 else "") + middle + (tail if k == parts - 1 else "")
-                    + "</body></html>")
-    return docs
-
-
-def render_pdf(html: str, path: Path, workers: int | None = None) -> None:
-    """Write the report as PDF; large reports are rendered in parts on all cores and joined."""
-    import concurrent.futures
-    import io
-    import multiprocessing
-    import os
-
-    workers = workers or min(os.cpu_count() or 1, 8)
-    docs = split_for_print(html, workers)
-    if len(docs) == 1:
-        Path(path).write_bytes(_pdf_bytes(html))
-        return
-    from pypdf import PdfReader, PdfWriter
-
-    with concurrent.futures.ProcessPoolExecutor(len(docs), mp_context=multiprocessing.get_context("fork"),
-                                                initializer=die_with_parent) as pool:
-        pdfs = list(pool.map(_pdf_bytes, docs))
-    writer = PdfWriter()
-    for data in pdfs:
-        writer.append(PdfReader(io.BytesIO(data)))
-    with open(path, "wb") as fh:
-        writer.write(fh)
-
-
-WORKLIST_COLUMNS = ["rank", "tag", "area", "service", "severity", "worst_case", "choke_ratio_max", "travel_max_pct",
-                    "cv_required_max", "rated_cv", "finding_codes", "findings"]
-
-
-def worklist_table(audit) -> pd.DataFrame:
-    """One row per valve with findings, ranked, with what a planner sorts and filters on."""
-    cases, valves = audit.cases, audit.valves
-    per = cases.groupby("valve").agg(cv_required_max=("cv", "max"))
-    out = valves.join(per, on="valve")
-    out["rated_cv"] = audit.linelist.valves["rated_cv"].to_numpy()[out["valve"].to_numpy(int)]
-    out = out[out["finding_codes"] != ""]
-    return out[WORKLIST_COLUMNS]
-
-
-def write_worklist(path: Path, audit) -> None:
-    from openpyxl import Workbook
-    from openpyxl.styles import Alignment, Font
-
-    table = worklist_table(audit)
-    book = Workbook()
-    sheet = book.active
-    sheet.title = "work list"
-    sheet.append(WORKLIST_COLUMNS)
-    for cell in sheet[1]:
-        cell.font = Font(bold=True)
-    for row in table.itertuples(index=False):
-        values = []
-        for v in row:
-            if isinstance(v, float) and not np.isfinite(v):
-                v = None
-            values.append(neutralise(v) if isinstance(v, str) else v)
-        sheet.append(values)
-    for r in sheet.iter_rows(min_row=2):
-        for cell in r:
-            if isinstance(cell.value, str):
-                cell.data_type = "s"  # text stays text, never a formula
-        r[-1].alignment = Alignment(wrap_text=True, vertical="top")
-    widths = [6, 14, 20, 34, 9, 10, 12, 12, 13, 10, 28, 90]
-    for i, w in enumerate(widths):
-        sheet.column_dimensions[chr(ord("A") + i)].width = w
-    sheet.freeze_panes = "C2"
-    sheet.auto_filter.ref = f"A1:{chr(ord('A') + len(WORKLIST_COLUMNS) - 1)}{max(len(table) + 1, 1)}"
-    note = book.create_sheet("caution")
-    note.append(["Screening only: every finding must be confirmed by a competent engineer before action. "
-                 "Local codes, regulations and licensed practice govern."])
-    book.save(path)
-
-
-def write_reports(folder: Path, audit, meta: dict, formats: set[str], progress=None) -> None:
-    """Write the chosen human-readable outputs into ``folder``."""
-    if formats & {"html", "pdf"}:
-        html = render_html(build_context(audit, meta, plots=True, progress=progress))
-        if "html" in formats:
-            (folder / "report.html").write_text(html, encoding="utf-8")
-        if "pdf" in formats:
-            with _stage(progress, "Writing the PDF report"):
-                render_pdf(html, folder / "report.pdf")
-    if "xlsx" in formats:
-        with _stage(progress, "Writing the work list"):
-            write_worklist(folder / "worklist.xlsx", audit)

@@ -23,7 +23,7 @@ RESULTS_COLUMNS = ["tag", "case", "phase", "cv_required", "cv_ratio", "travel_pc
                    "noise_dba", "findings"]
 EXTRA_RESULTS = ["area", "flow_kg_h", "p_in_kpa", "p_out_kpa", "t_in_c", "kv_required", "fp", "flp", "xtp",
                  "fr", "rev", "ff", "y", "xfz_source", "noise_note", "velocity_in_m_s", "velocity_line_in_m_s",
-                 "aiv_pwl_db", "gain_below", "flow_mult_full_travel", "choked_at_full_travel", "case_note"]
+                 "aiv_pwl_db", "gain_below", "flow_mult_full_travel", "choked_at_full_travel", "case_note", "time"]
 VALVES_COLUMNS = ["rank", "tag", "area", "service", "worst_case", "choke_ratio_max", "capacity_margin",
                   "travel_min_pct", "travel_max_pct", "gain_min", "gain_max", "severity", "findings"]
 REJECTED_COLUMNS = ["row", "tag", "reason"]
@@ -73,6 +73,7 @@ def results_table(cases: pd.DataFrame) -> pd.DataFrame:
         "flow_mult_full_travel": num("flow_mult_full_travel"),
         "choked_at_full_travel": cases.get("choked_at_full_travel", pd.Series(False, index=cases.index)).astype(bool),
         "case_note": note,
+        "time": cases["time"].fillna("") if "time" in cases else "",  # a history case's time stamp (UTC)
     })
     return out[RESULTS_COLUMNS + EXTRA_RESULTS]
 
@@ -245,6 +246,8 @@ def write_csvs(folder: Path, audit) -> None:
                                        encoding="utf-8")
     rejected = audit.rejected[REJECTED_COLUMNS] if len(audit.rejected) else pd.DataFrame(columns=REJECTED_COLUMNS)
     (folder / "rejected.csv").write_text(to_csv_text(rejected), encoding="utf-8")
+    if getattr(audit, "history", None) is not None:
+        (folder / "history.csv").write_text(to_csv_text(audit.history.table), encoding="utf-8")
 
 
 def _extra_valve_columns(audit) -> list[str]:

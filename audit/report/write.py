@@ -1,0 +1,22 @@
+"""Write the human-readable outputs a run asked for: report.html, report.pdf, worklist.xlsx."""
+from __future__ import annotations
+
+from pathlib import Path
+
+from audit.report.html import _stage, build_context, render_html
+from audit.report.pdf import render_pdf
+from audit.report.worklist import write_worklist
+
+
+def write_reports(folder: Path, audit, meta: dict, formats: set[str], progress=None) -> None:
+    """Write the chosen human-readable outputs into ``folder``."""
+    if formats & {"html", "pdf"}:
+        html = render_html(build_context(audit, meta, plots=True, progress=progress))
+        if "html" in formats:
+            (folder / "report.html").write_text(html, encoding="utf-8")
+        if "pdf" in formats:
+            with _stage(progress, "Writing the PDF report"):
+                render_pdf(html, folder / "report.pdf")
+    if "xlsx" in formats:
+        with _stage(progress, "Writing the work list"):
+            write_worklist(folder / "worklist.xlsx", audit)
