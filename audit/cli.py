@@ -147,6 +147,9 @@ def run(
     max_bytes: int = typer.Option(50_000_000, "--max-bytes", callback=_at_least_one,
                                   help="Refuse a line list file larger than this many bytes."),
     max_cell: int = typer.Option(1_000, "--max-cell", callback=_at_least_one, help="Reject a row with a longer cell."),
+    previous: Optional[Path] = typer.Option(None, "--previous", help="Folder of an earlier audit: its worklist.xlsx "
+                                            "planner entries (status, action, owner, work_order, due) are carried "
+                                            "to the same valves."),
     history: Optional[List[Path]] = typer.Option(None, "--history", help="Historian export (CSV or Parquet, "
                                                  "docs/history.md); repeat for several files. Needs hist_* columns."),
     history_tz: str = typer.Option("UTC", "--history-tz", callback=_time_zone,
@@ -168,7 +171,7 @@ def run(
 
         hist = HistorySettings(tuple(history or ()), history_tz, history_hold, history_stuck)
         code = _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cases, area_scale,
-                    trims, backend, max_rows, max_bytes, max_cell, quiet, hist)
+                    trims, backend, max_rows, max_bytes, max_cell, quiet, hist, previous)
     except InputProblem as exc:
         typer.echo(f"valve-audit: {exc}", err=True)
         code = EXIT_INPUT
@@ -185,7 +188,7 @@ def run(
 
 
 def _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cases, area_scale, trims, backend,
-         max_rows, max_bytes, max_cell, quiet, history=None) -> int:
+         max_rows, max_bytes, max_cell, quiet, history=None, previous=None) -> int:
     from audit.engine import Options
     from audit.io.loader import InputError, Limits
     from audit.io.outputs import OutputError
@@ -208,7 +211,8 @@ def _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cas
     limits = Limits(max_bytes=max_bytes, max_rows=max_rows, max_cell_chars=max_cell)
     try:
         summary = run_files(linelist, out, options, limits, sheet=sheet, formats=set(formats.split(",")),
-                            rules_file=rules_file, trims_file=trims, quiet=quiet, history=history)
+                            rules_file=rules_file, trims_file=trims, quiet=quiet, history=history,
+                            previous=previous)
     except (InputError, OutputError) as exc:
         raise InputProblem(str(exc))
     except OptionMismatch as exc:

@@ -121,21 +121,24 @@ def _with_history(audit: Audit, options: Options, history, progress) -> Audit:
 
 def run_files(linelist, out: Path, options: Options, limits: Limits | None = None, sheet: str | None = None,
               formats: set[str] | None = None, rules_file: Path | None = None, trims_file: Path | None = None,
-              quiet: bool = False, history=None) -> Summary:
+              quiet: bool = False, history=None, previous: Path | None = None) -> Summary:
     """Audit ``linelist`` (a path, or '-' for standard input) and write the chosen outputs into ``out``."""
     formats = formats or {"csv", "html", "pdf", "xlsx"}
     check_writable(Path(out))
+    planner = _read_previous(previous) if previous else None  # before this run can replace that folder
     progress = _Progress(quiet)
     audit = run_audit(linelist, options, limits, sheet, trims_file, progress, history)
     summary = Summary(rows=audit.linelist.rows_total, audited=len(audit.valves), rejected=len(audit.rejected),
                       cases=len(audit.cases), findings=len(audit.findings))
     meta = run_metadata(audit.linelist, options, rules_file, trims_file)
+    if previous:
+        meta["previous"] = str(previous)
     if history is not None and history.files:
         meta["history_files"] = [{"file": str(f), "sha256": sha256(Path(f))} for f in history.files]
         meta["history_settings"] = {"time_zone": history.tz, "hold_hours": history.hold_hours,
                                     "stuck_hours": history.stuck_hours}
     try:
-        written = _write_outputs(Path(out), audit, meta, formats, progress)
+        written = _write_outputs(Path(out), audit, meta, formats, progress, planner)
     except OSError as exc:  # a full disk, a folder made read-only meanwhile: the previous audit stays published
         raise OutputError(f"could not write the outputs into '{out}': {exc.strerror or exc}; the previous "
                           "outputs there are unchanged") from None
@@ -144,7 +147,23 @@ def run_files(linelist, out: Path, options: Options, limits: Limits | None = Non
     return summary
 
 
-def _write_outputs(out: Path, audit: Audit, meta: dict, formats: set[str], progress) -> list[str]:
+def _read_previous(folder: Path):
+    """The planner entries of an earlier audit's work list; an InputError if there is none to read."""
+    from audit.io.reader import InputError
+    from audit.report.worklist import read_previous
+
+    path = Path(folder) / "worklist.xlsx"
+    if not path.is_file():
+        raise InputError(f"--previous '{folder}': no worklist.xlsx there; give the folder of an earlier audit "
+                         "run with the xlsx format (the default)")
+    try:
+        return read_previous(Path(folder))
+    except Exception as exc:  # a damaged or foreign workbook: say which, never a traceback
+        raise InputError(f"--previous '{folder}': worklist.xlsx cannot be read as a work list "
+                         f"({type(exc).__name__}: {str(exc)[:120]})") from None
+
+
+def _write_outputs(out: Path, audit: Audit, meta: dict, formats: set[str], progress, planner=None) -> list[str]:
     """Every chosen output, staged and then published at once; returns the names written."""
     with staged_folder(out) as stage:
         with progress.stage("Writing the CSV outputs"):
@@ -161,7 +180,7 @@ def _write_outputs(out: Path, audit: Audit, meta: dict, formats: set[str], progr
         wanted = formats & {"html", "pdf", "xlsx"}
         if wanted:
             from audit.report.write import write_reports
-            write_reports(stage, audit, meta, wanted, progress=progress)
+            write_reports(stage, audit, meta, wanted, progress=progress, previous=planner)
         written = sorted(p.name for p in stage.iterdir())
     return written
 

@@ -16,7 +16,6 @@ from jinja2 import Environment, PackageLoader, select_autoescape
 from rules import all_rules, effective_thresholds, severity
 from rules.base import Severity
 
-from audit.io.outputs import neutralise
 from audit.ranking import family_summary
 from audit.report.parallel import die_with_parent
 
@@ -81,13 +80,32 @@ NOT_COVERED = [
 
 
 def _fmt(x, digits=3) -> str:
+    """A number to ``digits`` significant figures, never in exponent form between 1e-4 and 1e9:
+    2.669 -> '2.67', 4898 -> '4,900', 0.000123 -> '0.000123' (the same precision down a column)."""
     try:
         x = float(x)
     except (TypeError, ValueError):
         return str(x)
     if not np.isfinite(x):
         return ""
-    return f"{x:.{digits}g}"
+    if x == 0:
+        return "0"
+    if not 1e-4 <= abs(x) < 1e9:
+        return f"{x:.{digits}g}"
+    magnitude = int(np.floor(np.log10(abs(x))))
+    rounded = round(x, digits - 1 - magnitude)
+    if rounded != 0 and int(np.floor(np.log10(abs(rounded)))) > magnitude:  # 99.96 -> 100: one digit more
+        magnitude += 1
+    return f"{rounded:,.{max(digits - 1 - magnitude, 0)}f}"
+
+
+def _key(x) -> str:
+    """A sort key for the page's script: the number, or '' for a blank (blanks sort last)."""
+    try:
+        x = float(x)
+    except (TypeError, ValueError):
+        return ""
+    return repr(x) if np.isfinite(x) else ""
 
 
 def _env() -> Environment:
@@ -95,37 +113,36 @@ def _env() -> Environment:
                        trim_blocks=True, lstrip_blocks=True)
 
 
-CASE_ROWS = [  # label, column, scale, offset, digits
-    ("phase", "phase", None, 0, 0), ("flow [kg/h]", "w", 3600.0, 0, 4), ("p in [bar(a)]", "p_in", 1e-5, 0, 4),
-    ("p out [bar(a)]", "p_out", 1e-5, 0, 4), ("t in [degC]", "t_in", 1.0, -273.15, 4),
-    ("Cv required", "cv", 1.0, 0, 4), ("Cv ratio", "cv_ratio", 1.0, 0, 3), ("travel, predicted [%]", "travel_pct", 1.0, 0, 3),
-    ("travel, observed [%]", "travel_observed_pct", 1.0, 0, 3), ("dp [kPa]", "dp", 1e-3, 0, 4),
-    ("dp choked [kPa]", "dp_choked", 1e-3, 0, 4), ("x", "x", 1.0, 0, 3), ("x choked", "x_choked", 1.0, 0, 3),
-    ("choke ratio", "choke_ratio", 1.0, 0, 3), ("sigma", "sigma", 1.0, 0, 3), ("xF", "xf", 1.0, 0, 3),
-    ("xFz at p1", "xfzp1", 1.0, 0, 3), ("cavitation", "cavitation", None, 0, 0), ("vapour fraction out", "vapour_fraction_out", 1.0, 0, 3),
-    ("outlet velocity [m/s]", "velocity_out_m_s", 1.0, 0, 3), ("outlet Mach", "mach_out", 1.0, 0, 2),
-    ("noise at 1 m [dBA]", "noise_dba", 1.0, 0, 3), ("noise limit [dBA]", "noise_limit_dba", 1.0, 0, 3),
-    ("FP", "fp", 1.0, 0, 3), ("FLP", "flp", 1.0, 0, 3), ("FR", "fr", 1.0, 0, 3),
+CASE_ROWS = [  # label, unit, column, scale, offset (numbers: 3 significant figures throughout)
+    ("phase", "", "phase", None, 0), ("flow", "kg/h", "w", 3600.0, 0), ("p in", "bar(a)", "p_in", 1e-5, 0),
+    ("p out", "bar(a)", "p_out", 1e-5, 0), ("t in", "degC", "t_in", 1.0, -273.15),
+    ("Cv required", "", "cv", 1.0, 0), ("Cv ratio", "", "cv_ratio", 1.0, 0),
+    ("travel, predicted", "%", "travel_pct", 1.0, 0), ("travel, observed", "%", "travel_observed_pct", 1.0, 0),
+    ("dp", "kPa", "dp", 1e-3, 0), ("dp choked", "kPa", "dp_choked", 1e-3, 0), ("x", "", "x", 1.0, 0),
+    ("x choked", "", "x_choked", 1.0, 0), ("choke ratio", "", "choke_ratio", 1.0, 0), ("sigma", "", "sigma", 1.0, 0),
+    ("xF", "", "xf", 1.0, 0), ("xFz at p1", "", "xfzp1", 1.0, 0), ("cavitation", "", "cavitation", None, 0),
+    ("vapour fraction out", "", "vapour_fraction_out", 1.0, 0), ("outlet velocity", "m/s", "velocity_out_m_s", 1.0, 0),
+    ("outlet Mach", "", "mach_out", 1.0, 0), ("noise at 1 m", "dBA", "noise_dba", 1.0, 0),
+    ("noise limit", "dBA", "noise_limit_dba", 1.0, 0), ("FP", "", "fp", 1.0, 0), ("FLP", "", "flp", 1.0, 0),
+    ("FR", "", "fr", 1.0, 0),
 ]
 
 
-def _case_table(cases: pd.DataFrame) -> str:
-    """The cases side by side as aligned plain text (fast to lay out, also in print)."""
+def _case_table(cases: pd.DataFrame) -> dict:
+    """The cases side by side: {'names': case names, 'rows': [(label, unit, cells)]}, blank rows left out."""
     names = [str(c) for c in cases["case"]]
-    width = max([12] + [len(n) + 2 for n in names])
-    lines = [f"{'quantity':<24}" + "".join(f"{n:>{width}}" for n in names)]
-    for label, col, scale, offset, digits in CASE_ROWS:
+    rows = []
+    for label, unit, col, scale, offset in CASE_ROWS:
         if col not in cases:
             continue
         values = cases[col].to_numpy()
         if scale is None:
-            cells = [str(v) if v is not None else "" for v in values]
+            cells = ["" if v is None or (isinstance(v, float) and np.isnan(v)) else str(v) for v in values]
         else:
-            cells = [_fmt(float(v) * scale + offset, digits) if v is not None else "" for v in values]
-        cells = ["" if c == "nan" else c for c in cells]
+            cells = [_fmt(float(v) * scale + offset) if v is not None else "" for v in values]
         if any(cells):
-            lines.append(f"{label:<24}" + "".join(f"{c[:width - 1]:>{width}}" for c in cells))
-    return "\n".join(lines)
+            rows.append((label, unit, cells))
+    return {"names": names, "rows": rows}
 
 
 def build_context(audit, meta: dict, plots: bool = True, progress=None) -> dict:
@@ -140,11 +157,16 @@ def build_context(audit, meta: dict, plots: bool = True, progress=None) -> dict:
         lv = group["severity_level"].to_numpy(int)
         areas.append({"name": name, "counts": [int((lv == int(s)).sum()) for s in sorted(Severity, reverse=True)],
                       "total": len(group)})
-    rows = [{"rank": int(v.rank), "tag": v.tag, "area": v.area, "service": v.service, "worst_case": v.worst_case,
-             "ratio": _fmt(v.choke_ratio_max), "severity": v.severity, "mark": SEVERITY_MARK[int(v.severity_level)],
-             "codes": v.finding_codes.replace(";", ", "), "criticality": v.criticality,
-             "margin": _fmt(v.capacity_margin)} for v in valves.itertuples()]
     details = _details(audit, plots, progress)
+    detailed = {d["tag"] for d in details}
+    rows = [{"rank": int(v.rank), "tag": v.tag, "area": v.area, "service": v.service, "worst_case": v.worst_case,
+             "ratio": _fmt(v.choke_ratio_max), "ratio_key": _key(v.choke_ratio_max), "severity": v.severity,
+             "level": int(v.severity_level), "mark": SEVERITY_MARK[int(v.severity_level)],
+             "codes": v.finding_codes.replace(";", ", "), "criticality": v.criticality,
+             "margin": _fmt(v.capacity_margin), "margin_key": _key(v.capacity_margin),
+             "families": " ".join(sorted({severity.family_of(c) for c in v.finding_codes.split(";") if c})),
+             "anchor": f"valve-{int(v.rank)}" if v.tag in detailed else ""} for v in valves.itertuples()]
+    families = sorted({f for r in rows for f in r["families"].split()})
     thresholds = effective_thresholds(audit.options.thresholds)
     trows = [{"rule": r.code, "name": t.name, "value": _fmt(thresholds[r.code.lower()][t.name], 4), "unit": t.unit,
               "default": _fmt(t.default, 4), "source": t.source, "meaning": t.meaning}
@@ -165,6 +187,10 @@ def build_context(audit, meta: dict, plots: bool = True, progress=None) -> dict:
                  ("trim alternatives file", meta.get("trims_file", "")),
                  ("flow scaling", scaled or "none"), ("atmospheric pressure [kPa]", _fmt(meta["p_atm_kpa"], 6)),
                  ("property backend", meta["property_backend"])]
+    if meta.get("previous"):
+        meta_rows.append(("previous audit (work list carried over)", meta["previous"]))
+    for item in meta.get("history_files", []):
+        meta_rows.append(("history file, SHA-256", f"{item['file']}, {item['sha256']}"))
     headroom = []
     if "flow_mult_full_travel" in valves:
         order = np.argsort(np.fmin(valves["flow_mult_full_travel"].to_numpy(float),
@@ -186,6 +212,7 @@ def build_context(audit, meta: dict, plots: bool = True, progress=None) -> dict:
         "counts": {"rows": audit.linelist.rows_total, "audited": len(valves), "rejected": len(audit.rejected),
                    "cases": len(cases)},
         "severities": severities, "areas": areas, "top": rows[:10], "valves": rows, "details": details,
+        "families": families, "script": (Path(__file__).parent / "templates" / "report.js").read_text(encoding="utf-8"),
         "choking": choking_view(audit), "grades": severity.TABLE, "adjustments": severity.ADJUSTMENTS,
         "fleet_svg": fleet_svg(valves["choke_ratio_max"].to_numpy(float), list(valves["tag"])) if len(valves) else "",
         "rejected": audit.rejected.to_dict(orient="records"),
@@ -274,7 +301,7 @@ def _details(audit, plots: bool, progress) -> list[dict]:
             jobs.append((vc[PLOT_COLUMNS].reset_index(drop=True), int(np.argmax(ratios))))
             slots.append(len(out))
         out.append({
-            "rank": int(v.rank), "tag": v.tag, "service": v.service, "area": v.area, "severity": v.severity,
+            "rank": int(v.rank), "anchor": f"valve-{int(v.rank)}", "tag": v.tag, "service": v.service, "area": v.area, "severity": v.severity,
             "mark": SEVERITY_MARK[int(v.severity_level)], "worst_case": v.worst_case,
             "fluid": lv["fluid"], "size": f"{lv['valve_size'] * 1000:.0f} mm", "rated_cv": _fmt(lv["rated_cv"], 4),
             "characteristic": lv["characteristic"].replace("_", " "), "fl": _fmt(lv["fl"]), "xt": _fmt(lv["xt"]),

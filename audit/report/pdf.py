@@ -5,6 +5,7 @@ so nothing in a line list can make it read the disk or the network.
 """
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import numpy as np
@@ -52,8 +53,7 @@ def split_for_print(html: str, parts: int) -> list[str]:
     cores share the work and the parts' pages are joined in order.  Page numbers then run per
     part ("part 2 of 2, page 7").
     """
-    marker = '<div class="valve">'
-    starts = [i for i in range(len(html)) if html.startswith(marker, i)] if marker in html else []
+    starts = [m.start() for m in re.finditer('<section class="valve"', html)]
     if parts < 2 or len(starts) < PDF_PARALLEL_FROM:
         return [html]
     body_at = html.index("<body>") + len("<body>")

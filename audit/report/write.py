@@ -5,11 +5,19 @@ from pathlib import Path
 
 from audit.report.html import _stage, build_context, render_html
 from audit.report.pdf import render_pdf
-from audit.report.worklist import write_worklist
+from audit.report.worklist import carry_over, worklist_table, write_worklist
 
 
-def write_reports(folder: Path, audit, meta: dict, formats: set[str], progress=None) -> None:
-    """Write the chosen human-readable outputs into ``folder``."""
+def write_reports(folder: Path, audit, meta: dict, formats: set[str], progress=None, previous=None) -> None:
+    """Write the chosen human-readable outputs into ``folder``.
+
+    previous: the planner entries of an earlier work list (``worklist.read_previous``), carried over
+    to this one; the report says how many.
+    """
+    table = None
+    if previous is not None:
+        table, carried = carry_over(worklist_table(audit), previous, meta.get("previous", ""))
+        meta = {**meta, "carried": {"carried": carried.carried, "gone": carried.gone, "source": carried.source}}
     if formats & {"html", "pdf"}:
         html = render_html(build_context(audit, meta, plots=True, progress=progress))
         if "html" in formats:
@@ -19,4 +27,4 @@ def write_reports(folder: Path, audit, meta: dict, formats: set[str], progress=N
                 render_pdf(html, folder / "report.pdf")
     if "xlsx" in formats:
         with _stage(progress, "Writing the work list"):
-            write_worklist(folder / "worklist.xlsx", audit)
+            write_worklist(folder / "worklist.xlsx", audit, table)
