@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from audit.fluid import outlet, properties
+from audit.fluid import outlet, properties, tables
 from audit.casetable import size_arrays, sizing_arrays
 from audit.iec.characteristic import travel_percent
 from audit.studies.headroom import add_case_headroom, add_valve_headroom
@@ -30,6 +30,7 @@ class Options:
     flow_scale: float = 1.0          # what-if multiplier on every case's flow
     scale_cases: tuple[str, ...] = ()  # cases the multiplier applies to (empty: all)
     area_scale: dict = field(default_factory=dict)  # {area: multiplier}, on top of flow_scale
+    property_tables: bool = False    # many states (history samples): interpolate in checked tables (fluid.tables)
 
 
 @dataclass
@@ -77,8 +78,11 @@ def add_properties(cases: pd.DataFrame, ll: LineList, options: Options) -> None:
     fluids = [f if good else None for f, good in zip(fluid_objs, ok)]
     p1, t1 = cases["p_in"].to_numpy(float), cases["t_in"].to_numpy(float)
     phase_given = cases["phase_given"].to_numpy(dtype=object)
-    props = properties.inlet_properties(fluids, p1, t1, phase_given, options.backend,
-                                        quality=cases["quality_in"].to_numpy(float))
+    quality = cases["quality_in"].to_numpy(float)
+    if options.property_tables:  # one table per fluid and valve: the range one valve visits is small
+        props = tables.tabulated_inlet_properties(fluids, p1, t1, phase_given, options.backend, quality, groups=v)
+    else:
+        props = properties.inlet_properties(fluids, p1, t1, phase_given, options.backend, quality=quality)
     custom = cases["custom"].to_numpy(bool)
     # The temperature the properties were taken at: the given one, or the saturation temperature ('sat',
     # quality_in, or a state within the saturation tolerance).

@@ -43,6 +43,7 @@ class HistorySettings:
     hold_hours: float = 2.0
     stuck_hours: float = 24.0
     chunk_samples: int = 100_000   # samples audited at once; bounds memory, not results
+    property_tables: bool = True   # interpolate properties in checked tables where a valve has many samples
 
 
 @dataclass
@@ -175,7 +176,8 @@ def sample_cases(valve: np.ndarray, samples: list[Samples], rules: list) -> pd.D
     return frame
 
 
-def _audit_chunk(ll: LineList, valve_ids: list[int], samples: list[Samples], rules: list, options, traces_for):
+def _audit_chunk(ll: LineList, valve_ids: list[int], samples: list[Samples], rules: list, options,
+                 property_tables: bool = True):
     """Audit one chunk of valves' used samples; returns the engine's sample-case table."""
     from audit.engine import Options, compute
 
@@ -184,7 +186,10 @@ def _audit_chunk(ll: LineList, valve_ids: list[int], samples: list[Samples], rul
     if not len(cases):
         return pd.DataFrame()
     chunk = LineList(sub, cases, pd.DataFrame(columns=["row", "tag", "reason"]), units=ll.units)
-    observed = Options(p_atm=options.p_atm, backend=options.backend, thresholds=options.thresholds)  # no what-if
+    # No what-if scaling on observed data; every sample is its own state, so properties come from tables
+    # checked against the full equation (fluid.tables; within 0.1 % on density and vapour pressure).
+    observed = Options(p_atm=options.p_atm, backend=options.backend, thresholds=options.thresholds,
+                       property_tables=property_tables)
     audited = compute(chunk, observed).cases
     return audited
 
@@ -290,7 +295,7 @@ def study_history(base, settings: HistorySettings, options, progress=None) -> Hi
         if not chunk:
             return
         audited = _audit_chunk(ll, [c[0] for c in chunk], [c[1] for c in chunk], [c[2] for c in chunk], options,
-                               None)
+                               settings.property_tables)
         by_tag = dict(tuple(audited.groupby("tag", sort=False))) if len(audited) else {}
         for v, samples, _, row in chunk:
             g = by_tag.get(row["tag"], pd.DataFrame(columns=audited.columns if len(audited) else []))
