@@ -13,13 +13,11 @@ an extrapolation, labelled as one, not a run. Peak memory is the process's maxim
 from __future__ import annotations
 
 import argparse
-import functools
 import resource
 import statistics
 import sys
 import tempfile
 import time
-from collections import defaultdict
 from pathlib import Path
 
 import numpy as np
@@ -29,22 +27,7 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "benchmarks"))
 sys.path.insert(0, str(ROOT / "sample_linelist"))
 
-TIMES: dict[str, float] = defaultdict(float)
-
-
-def timed(owner, name: str, label: str) -> None:
-    """Wrap owner.name so that its time adds to TIMES[label]."""
-    original = getattr(owner, name)
-
-    @functools.wraps(original)
-    def wrapper(*a, **k):
-        t0 = time.perf_counter()
-        try:
-            return original(*a, **k)
-        finally:
-            TIMES[label] += time.perf_counter() - t0
-    setattr(owner, name, wrapper)
-
+from stages import TIMES, instrument_engine, timed  # noqa: E402
 
 def build(folder: Path, valves: int, days: int) -> tuple[Path, Path]:
     from synthetic import make_linelist
@@ -87,18 +70,11 @@ def build(folder: Path, valves: int, days: int) -> tuple[Path, Path]:
 
 
 def instrument() -> None:
-    import audit.engine as engine
     import audit.history.study as study
-    import audit.ranking as ranking
-    import rules
 
     timed(study, "read_history", "read")
     timed(study, "_valve_samples", "clean")
-    for name, label in (("add_properties", "properties"), ("add_mass_flow", "flows"), ("add_sizing", "sizing"),
-                        ("add_outlet_state", "outlet"), ("add_case_headroom", "headroom")):
-        timed(engine, name, label)
-    timed(rules, "apply_rules", "rules")
-    timed(ranking, "rank_valves", "ranking")
+    instrument_engine()
 
 
 def one_run(ll: Path, hist: Path, out: Path, tables: bool = True) -> tuple[dict, float, int]:

@@ -88,6 +88,23 @@ def test_pdf_repeats_table_headers_on_every_page(sample_reports):
         assert "capacity" in text and "worst" in text and "findings" in text   # its header row on each page
 
 
+def test_pdf_places_plots_as_images_and_html_keeps_vectors(sample_reports):
+    # Images in the PDF (ISO 32000-1 8.9: image XObjects), vector SVG in the HTML; both from one drawing.
+    reader = PdfReader(sample_reports / "report.pdf")
+    images = set()
+    for page in reader.pages:
+        xobjects = page["/Resources"].get_object().get("/XObject")
+        for name, obj in (xobjects.get_object().items() if xobjects else []):
+            if obj.get_object().get("/Subtype") == "/Image":
+                images.add(obj.idnum if hasattr(obj, "idnum") else name)
+    html = (sample_reports / "report.html").read_text(encoding="utf-8")
+    details = html[html.index('<h2 id="details"'):]
+    # identical plots (the sample's twin valves) make one image: count distinct drawings
+    drawings = set(re.findall(r'<figure class="plot keep">(<svg.*?</svg>)', details, flags=re.S))
+    assert len(drawings) > 5 and len(images) == len(drawings)
+    assert "data:image" not in html
+
+
 def test_caution_and_methods_in_both_formats(sample_reports):
     html = (sample_reports / "report.html").read_text(encoding="utf-8")
     pdf = "\n".join(page.extract_text() for page in PdfReader(sample_reports / "report.pdf").pages)

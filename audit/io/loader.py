@@ -15,6 +15,7 @@ Output of ``load_linelist``:
 from __future__ import annotations
 
 import os
+import re
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -61,7 +62,8 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     n = len(table)
     reasons = Reasons(n)
     for i, why in enumerate(early):
-        reasons.text[i].extend(why)
+        for message in why:
+            reasons.note(i, message)
     for col in table.columns:
         unknown = (table[col] == UNCACHED).to_numpy()
         if unknown.any():
@@ -127,7 +129,7 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
         names = cases["case"].to_numpy(dtype=object)
         for i in np.flatnonzero(all_bad):
             rows = np.flatnonzero(valve_of == i)
-            reasons.text[i].append("; ".join(f"case {names[r]}: {errors[r]}" for r in rows if errors[r]))
+            reasons.note(i, "; ".join(f"case {names[r]}: {errors[r]}" for r in rows if errors[r]))
 
     bad = reasons.bad()
     rejected = pd.DataFrame({"row": row_numbers[bad], "tag": text["tag"][bad],
@@ -207,6 +209,7 @@ def _columns(raw: RawTable):
     return table, unit_of, ignored, np.asarray(numbers, dtype=int), early
 
 
+_PLAIN_ROW = re.compile(r"[\x20-\x7e]*")  # printable ASCII only: clean_text would change nothing
 UNCACHED = "\u0000uncached formula"  # a marker no cleaned cell can hold (clean_text drops NUL)
 
 
@@ -229,6 +232,10 @@ def _clean_cells(rows: list[list]) -> tuple[list[list], int]:
     characters or invisible marks (NFKC).  Returns the rows and how many cells were cleaned."""
     out, cleaned = [], 0
     for r in rows:
+        # Most rows of a CSV are plain printable text: one check for the whole row instead of one per cell.
+        if all(type(v) is str for v in r) and _PLAIN_ROW.fullmatch("".join(r)):
+            out.append(list(r))
+            continue
         new = []
         for v in r:
             if isinstance(v, bool):

@@ -8,6 +8,9 @@ and moved into place only when all are complete.
 """
 from __future__ import annotations
 
+import csv
+import io
+
 import os
 import shutil
 import tempfile
@@ -84,17 +87,38 @@ def _join_notes(*columns: pd.Series) -> list[str]:
 
 
 def to_csv_text(frame: pd.DataFrame) -> str:
-    """CSV text: formula-like cells neutralised, booleans true/false, floats to 6 significant digits."""
-    safe = frame.copy()
-    for c in safe.columns:
-        if pd.api.types.is_float_dtype(safe[c].dtype):
-            safe[c] = [f"{v:.6g}" if v == v else "" for v in safe[c].to_numpy(float).tolist()]
-        elif pd.api.types.is_bool_dtype(safe[c].dtype):
-            safe[c] = np.where(safe[c], "true", "false")
-        elif not pd.api.types.is_numeric_dtype(safe[c].dtype):  # object or string columns
-            safe[c] = [neutralise(v) if isinstance(v, str) else ("true" if v is True else "false" if v is False else v)
-                        for v in safe[c].to_numpy(dtype=object).tolist()]
-    return safe.to_csv(index=False, lineterminator="\n")
+    """CSV text: formula-like cells neutralised, booleans true/false, floats to 6 significant digits.
+
+    Built column by column into lists of strings and written by the csv module (the same quoting
+    pandas uses), without a second copy of the table as a DataFrame of Python strings.
+    """
+    columns = [_cells(frame[c]) for c in frame.columns]
+    buf = io.StringIO()
+    writer = csv.writer(buf, lineterminator="\n")
+    writer.writerow([str(c) for c in frame.columns])
+    writer.writerows(zip(*columns))
+    return buf.getvalue()
+
+
+def _cells(series: pd.Series) -> list:
+    dtype = series.dtype
+    if pd.api.types.is_float_dtype(dtype):
+        return [f"{v:.6g}" if v == v else "" for v in series.to_numpy(float).tolist()]
+    if pd.api.types.is_bool_dtype(dtype):
+        return np.where(series.to_numpy(bool), "true", "false").tolist()
+    if pd.api.types.is_numeric_dtype(dtype):
+        return series.tolist()
+    return [_text_cell(v) for v in series.to_numpy(dtype=object).tolist()]
+
+
+def _text_cell(v):
+    if isinstance(v, str):
+        return neutralise(v)
+    if v is True or v is False:
+        return "true" if v else "false"
+    if v is None or (isinstance(v, float) and v != v):
+        return ""
+    return v
 
 
 # Every file a run or a comparison may publish: a new set replaces the old one whole, so a file of a

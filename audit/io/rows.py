@@ -24,22 +24,34 @@ class Reasons:
 
     def __init__(self, n: int):
         self.text = [[] for _ in range(n)]
+        self.rows = set()   # rows with at least one reason (most rows have none)
 
     def add(self, mask: np.ndarray, message) -> None:
         for i in np.flatnonzero(mask):
             self.text[i].append(message(i) if callable(message) else message)
+            self.rows.add(int(i))
+
+    def note(self, i: int, message: str) -> None:
+        self.text[i].append(message)
+        self.rows.add(int(i))
 
     def add_array(self, messages: np.ndarray) -> None:
         for i in np.flatnonzero(messages != ""):
             self.text[i].append(messages[i])
+            self.rows.add(int(i))
 
     def mentions(self, column: str) -> np.ndarray:
         """Rows that already have a reason naming ``column`` (so a blank it caused is not reported twice)."""
         needle = f"'{column}'"
-        return np.array([any(needle in t for t in texts) for texts in self.text], dtype=bool)
+        out = np.zeros(len(self.text), dtype=bool)
+        for i in self.rows:
+            out[i] = any(needle in t for t in self.text[i])
+        return out
 
     def bad(self) -> np.ndarray:
-        return np.array([bool(t) for t in self.text], dtype=bool)
+        out = np.zeros(len(self.text), dtype=bool)
+        out[list(self.rows)] = True
+        return out
 
     def joined(self, i: int) -> str:
         return "; ".join(self.text[i])
@@ -53,8 +65,10 @@ def text_column(table: pd.DataFrame, col: str) -> np.ndarray:
 
 def check_cell_length(table: pd.DataFrame, limits: Limits, reasons: Reasons) -> None:
     for col in table.columns:
-        lengths = np.fromiter((len(str(v)) for v in table[col].to_numpy(dtype=object)), dtype=np.int64,
-                              count=len(table))
+        values = table[col].to_numpy(dtype=object)
+        if all(type(v) is str for v in values) and max(map(len, values), default=0) <= limits.max_cell_chars:
+            continue  # the common case, decided without a per-cell array
+        lengths = np.fromiter((len(str(v)) for v in values), dtype=np.int64, count=len(table))
         reasons.add(lengths > limits.max_cell_chars,
                     lambda i, col=col, lengths=lengths: f"column '{col}': a cell of {lengths[i]:,} characters, "
                     f"over the limit of {limits.max_cell_chars:,}")
@@ -78,12 +92,12 @@ def check_fluids(text, num, reasons: Reasons, valves: pd.DataFrame) -> list[Flui
         word = text["phase"][i].lower()
         if word:
             if word not in PHASE_WORDS:
-                reasons.text[i].append(f"column 'phase': '{_clip(text['phase'][i])}' is not one of "
+                reasons.note(i, f"column 'phase': '{_clip(text['phase'][i])}' is not one of "
                                        "liquid, gas, vapour, steam")
             phase[i] = PHASE_WORDS.get(word, "")
         name = text["fluid"][i]
         if not name:
-            reasons.text[i].append("column 'fluid' is blank; give a CoolProp fluid name, a mixture or 'custom'")
+            reasons.note(i, "column 'fluid' is blank; give a CoolProp fluid name, a mixture or 'custom'")
             continue
         if name.lower() == "custom":
             custom[i] = True
@@ -91,18 +105,18 @@ def check_fluids(text, num, reasons: Reasons, valves: pd.DataFrame) -> list[Flui
                 phase[i] = "liquid" if np.isfinite(num["vapour_pressure"][i]) else (
                     "gas" if np.isfinite(num["molar_mass"][i]) else "")
             if not phase[i]:
-                reasons.text[i].append("fluid 'custom' needs column 'phase' (liquid or gas) or the overrides "
+                reasons.note(i, "fluid 'custom' needs column 'phase' (liquid or gas) or the overrides "
                                        "of one phase")
                 continue
             missing = [c for c in CUSTOM_NEEDS[phase[i]] if not np.isfinite(num[c][i])]
             if missing:
-                reasons.text[i].append(f"fluid 'custom' ({phase[i]}) needs column(s) {', '.join(missing)}")
+                reasons.note(i, f"fluid 'custom' ({phase[i]}) needs column(s) {', '.join(missing)}")
             continue
         if name not in cache:
             cache[name] = resolve_fluid(name)
         fluids[i], problem = cache[name]
         if problem:
-            reasons.text[i].append(problem)
+            reasons.note(i, problem)
     check_range(num, "density", reasons, low=0.0, what="a density above 0 kg/m3")
     check_range(num, "viscosity", reasons, low=0.0, what="a viscosity above 0")
     check_range(num, "molar_mass", reasons, low=0.0, what="a molar mass above 0 kg/kmol")
@@ -168,7 +182,7 @@ def check_valve(text, num, reasons: Reasons, valves: pd.DataFrame) -> None:
             continue
         if style[i]:
             if style[i] not in styles.TYPICAL_FACTORS:
-                reasons.text[i].append(f"column 'valve_style': '{_clip(text['valve_style'][i])}' is not one of "
+                reasons.note(i, f"column 'valve_style': '{_clip(text['valve_style'][i])}' is not one of "
                                        f"{', '.join(styles.style_names())}")
                 continue
             f_l, x_t, f_d, _ = styles.TYPICAL_FACTORS[style[i]]
@@ -180,7 +194,7 @@ def check_valve(text, num, reasons: Reasons, valves: pd.DataFrame) -> None:
         else:
             need_now = [m for m in missing if m != "xt" or gasish[i]]
             if need_now:
-                reasons.text[i].append(f"trim factor(s) {', '.join(need_now)} blank and no 'valve_style' "
+                reasons.note(i, f"trim factor(s) {', '.join(need_now)} blank and no 'valve_style' "
                                        "to take typical values from")
     valves["valve_size"] = size
     valves["rated_cv"] = cv

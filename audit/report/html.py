@@ -145,7 +145,9 @@ def _case_table(cases: pd.DataFrame) -> dict:
     return {"names": names, "rows": rows}
 
 
-def build_context(audit, meta: dict, plots: bool = True, progress=None) -> dict:
+def build_context(audit, meta: dict, plots: bool = True, progress=None, images: bool = False) -> dict:
+    """Everything the page needs. images: also draw each valve's plots as a PNG, for the PDF
+    (``render_html(context, for_print=True)`` places them instead of the SVG)."""
     from audit.report.plots import fleet_svg
 
     valves, cases = audit.valves, audit.cases
@@ -157,7 +159,7 @@ def build_context(audit, meta: dict, plots: bool = True, progress=None) -> dict:
         lv = group["severity_level"].to_numpy(int)
         areas.append({"name": name, "counts": [int((lv == int(s)).sum()) for s in sorted(Severity, reverse=True)],
                       "total": len(group)})
-    details = _details(audit, plots, progress)
+    details = _details(audit, plots, progress, images)
     detailed = {d["tag"] for d in details}
     rows = [{"rank": int(v.rank), "tag": v.tag, "area": v.area, "service": v.service, "worst_case": v.worst_case,
              "ratio": _fmt(v.choke_ratio_max), "ratio_key": _key(v.choke_ratio_max), "severity": v.severity,
@@ -241,28 +243,29 @@ PLOT_COLUMNS = ["case", "phase", "p_in", "t_in", "rho", "pv", "pc", "molar_mass"
 PARALLEL_FROM = 60  # plots; below this one process draws them all
 
 
-def _draw_many(jobs: list[tuple[pd.DataFrame, int]]) -> list[str]:
-    """Draw the per-valve panels for (case rows, worst-case position) jobs, in this process."""
+def _draw_many(jobs: list[tuple[pd.DataFrame, int, bool]]) -> list[tuple[str, str]]:
+    """Draw the per-valve panels for (case rows, worst-case position, with a PNG) jobs, in this process."""
     from audit.report.plots import ValvePlots
 
     drawer = ValvePlots()
     try:
-        return [_one_plot(drawer, vc, worst) for vc, worst in jobs]
+        return [_one_plot(drawer, vc, worst, png) for vc, worst, png in jobs]
     finally:
         drawer.close()
 
 
-def _one_plot(drawer, vc: pd.DataFrame, worst: int) -> str:
-    """One valve's plots, or a plain sentence where its numbers cannot be drawn: a plot never stops a run."""
+def _one_plot(drawer, vc: pd.DataFrame, worst: int, png: bool = False) -> tuple[str, str]:
+    """One valve's plots (SVG, and a PNG for print when asked), or a plain sentence where its numbers cannot
+    be drawn: a plot never stops a run."""
     try:
-        return drawer.svg(vc, vc.iloc[worst])
+        return drawer.render(vc, vc.iloc[worst], png)
     except (ValueError, OverflowError, FloatingPointError, RuntimeError) as exc:
-        return f"<p class=\"muted\">Plots not drawn for this valve: {html_escape(str(exc).strip()[:120])}.</p>"
+        return f"<p class=\"muted\">Plots not drawn for this valve: {html_escape(str(exc).strip()[:120])}.</p>", ""
 
 
-def draw_plots(jobs: list, workers: int | None = None) -> list[str]:
-    """SVG text per job, split over the machine's cores when there are many (matplotlib is
-    single-threaded and a plot costs some 30 ms)."""
+def draw_plots(jobs: list, workers: int | None = None) -> list[tuple[str, str]]:
+    """(SVG text, PNG base64) per job, split over the machine's cores when there are many (matplotlib
+    is single-threaded and a plot costs some 30 ms)."""
     import concurrent.futures
     import multiprocessing
     import os
@@ -274,13 +277,13 @@ def draw_plots(jobs: list, workers: int | None = None) -> list[str]:
     with concurrent.futures.ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork"),
                                                 initializer=die_with_parent) as pool:
         parts = list(pool.map(_draw_many, chunks))
-    out = [""] * len(jobs)
+    out = [("", "")] * len(jobs)
     for i, part in enumerate(parts):
         out[i::workers] = part
     return out
 
 
-def _details(audit, plots: bool, progress) -> list[dict]:
+def _details(audit, plots: bool, progress, images: bool = False) -> list[dict]:
     valves, cases, findings = audit.valves, audit.cases, audit.findings
     ll = audit.linelist.valves
     if not len(findings):
@@ -298,7 +301,7 @@ def _details(audit, plots: bool, progress) -> list[dict]:
         sized = np.isfinite(vc["cv"].to_numpy(float))
         if plots and v.severity_level >= PLOT_FROM and sized.any():
             ratios = np.where(sized, vc["choke_ratio"].to_numpy(float), -np.inf)
-            jobs.append((vc[PLOT_COLUMNS].reset_index(drop=True), int(np.argmax(ratios))))
+            jobs.append((vc[PLOT_COLUMNS].reset_index(drop=True), int(np.argmax(ratios)), images))
             slots.append(len(out))
         out.append({
             "rank": int(v.rank), "anchor": f"valve-{int(v.rank)}", "tag": v.tag, "service": v.service, "area": v.area, "severity": v.severity,
@@ -308,12 +311,12 @@ def _details(audit, plots: bool, progress) -> list[dict]:
             "fd": _fmt(lv["fd"]), "typical": lv["typical_factors"],
             "findings": [{"severity": Severity(int(s)).label, "sentence": t}
                          for s, t in zip(fv["severity"], fv["sentence"])],
-            "case_names": list(vc["case"]), "table": _case_table(vc), "svg": "",
+            "case_names": list(vc["case"]), "table": _case_table(vc), "svg": "", "png": "",
         })
     if jobs:
         with _stage(progress, f"Drawing plots for {len(jobs)} valves"):
-            for slot, svg in zip(slots, draw_plots(jobs)):
-                out[slot]["svg"] = svg
+            for slot, (svg, png) in zip(slots, draw_plots(jobs)):
+                out[slot]["svg"], out[slot]["png"] = svg, png
     return out
 
 
@@ -322,5 +325,7 @@ def _stage(progress, title: str):
     return progress.stage(title) if progress is not None else contextlib.nullcontext()
 
 
-def render_html(context: dict) -> str:
-    return _env().get_template("report.html").render(**context)
+def render_html(context: dict, for_print: bool = False) -> str:
+    """The page; for_print: per-valve plots as PNG images where drawn (the PDF's layout of a vector plot
+    costs ten times that of an image), vector plots otherwise."""
+    return _env().get_template("report.html").render(**context, for_print=for_print)

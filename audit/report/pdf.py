@@ -13,12 +13,16 @@ import numpy as np
 from audit.report.parallel import die_with_parent
 
 
+PNG_DATA = "data:image/png;base64,"
+
+
 class RefusedFetch(Exception):
     pass
 
 
 class RefuseEveryUrl:
-    """URL fetcher for the PDF renderer: nothing is fetched, from anywhere, local files included.
+    """URL fetcher for the PDF renderer: nothing is fetched, from anywhere, local files included;
+    only the report's own inline PNG plots (data: URLs) are decoded.
 
     A refusal is a plain error to the renderer (it drops the resource and goes on), not a
     fatal one, so a stray reference can never stop the run.
@@ -30,6 +34,15 @@ class RefuseEveryUrl:
         self.asked = []
 
     def __call__(self, url: str, *args, **kwargs):
+        # The one exception: a plot the report itself placed inline as a PNG (no disk, no network).
+        if url.startswith(PNG_DATA):
+            import base64
+            data = base64.b64decode(url[len(PNG_DATA):], validate=True)
+            try:  # WeasyPrint 66 and later take a response object; earlier ones a dict
+                from weasyprint.urls import URLFetcherResponse
+            except ImportError:
+                return {"string": data, "mime_type": "image/png"}
+            return URLFetcherResponse(url, body=data, headers={"Content-Type": "image/png"})
         self.asked.append(url)
         raise RefusedFetch(f"the report renderer fetches nothing (asked for {url[:80]!r})")
 

@@ -19,12 +19,12 @@ def write_reports(folder: Path, audit, meta: dict, formats: set[str], progress=N
         table, carried = carry_over(worklist_table(audit), previous, meta.get("previous", ""))
         meta = {**meta, "carried": {"carried": carried.carried, "gone": carried.gone, "source": carried.source}}
     if formats & {"html", "pdf"}:
-        html = render_html(build_context(audit, meta, plots=True, progress=progress))
+        context = build_context(audit, meta, plots=True, progress=progress, images="pdf" in formats)
         if "html" in formats:
-            (folder / "report.html").write_text(html, encoding="utf-8")
+            (folder / "report.html").write_text(render_html(context), encoding="utf-8")
         if "pdf" in formats:
             with _stage(progress, "Writing the PDF report"):
-                render_pdf(html, folder / "report.pdf")
+                render_pdf(render_html(context, for_print=True), folder / "report.pdf")
     if "xlsx" in formats:
         with _stage(progress, "Writing the work list"):
             write_worklist(folder / "worklist.xlsx", audit, table)
