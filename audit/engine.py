@@ -31,6 +31,8 @@ class Options:
     scale_cases: tuple[str, ...] = ()  # cases the multiplier applies to (empty: all)
     area_scale: dict = field(default_factory=dict)  # {area: multiplier}, on top of flow_scale
     property_tables: bool = False    # many states (history samples): interpolate in checked tables (fluid.tables)
+    summarise: bool = True           # False: case columns and finding codes only (no sentences, ranking or
+                                     # per-valve headroom), for the history's samples, read only as counts
 
 
 @dataclass
@@ -293,6 +295,12 @@ def compute(ll: LineList, options: Options | None = None) -> Audit:
     add_sizing(cases)
     add_outlet_state(cases, ll, options)
     add_case_headroom(cases, effective_thresholds(options.thresholds)["travel"]["high_pct"])
+    if not options.summarise:
+        from rules.base import without_sentences
+
+        with without_sentences():
+            findings = apply_rules(cases, options.thresholds)
+        return Audit(cases, ll.valves, ll.rejected, findings, ll, options)
     findings = apply_rules(cases, options.thresholds)
     valves = rank_valves(ll.valves, cases, findings)
     extra = add_valve_headroom(cases, valves)

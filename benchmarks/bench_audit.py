@@ -10,6 +10,7 @@ Each measurement runs in a fresh process, so CoolProp's caches start cold every 
 
     python benchmarks/bench_audit.py               # the full run (a few minutes, most of it the PDF)
     python benchmarks/bench_audit.py --small 300   # smoke test: every step at 300 valves
+    python benchmarks/bench_audit.py --skip-report # the audit's figures only
 """
 from __future__ import annotations
 
@@ -166,6 +167,7 @@ def _child(func: str, *args: str) -> dict:
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--small", type=int, default=0, help="smoke test: run every step at this many valves")
+    parser.add_argument("--skip-report", action="store_true", help="audit figures only (the two PDFs take minutes)")
     args = parser.parse_args(argv)
     from synthetic import make_linelist
 
@@ -207,6 +209,8 @@ def main(argv=None) -> int:
               f"{core_per_case * 1e3:.4f} ms/case: {ref_per_case / core_per_case:.0f}x faster per case")
         print(f"  whole audit, file to CSV (also loading, rules, headroom, writing): {ours_per_case * 1e3:.4f} ms/case: "
               f"{ref_per_case / ours_per_case:.0f}x")
+        if args.skip_report:
+            return 0
         for mode, words in (("svg", "before (vector plots laid out in the PDF)"),
                             ("png", "after (plots as images in the PDF, vector in the HTML)")):
             out = tmp / f"report_{mode}"

@@ -83,6 +83,9 @@ def one_run(ll: Path, hist: Path, out: Path, tables: bool = True) -> tuple[dict,
     from audit.io.loader import load_linelist
     from audit.io.outputs import to_csv_text
 
+    import audit.fluid.properties as properties
+
+    properties._STATES.clear()  # cold property caches: each run pays for its own states, as a new run would
     base = compute(load_linelist(ll))
     TIMES.clear()
     t0 = time.perf_counter()

@@ -9,13 +9,14 @@ row, a code, a severity and one plain sentence with the numbers in it.
 """
 from __future__ import annotations
 
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from typing import Callable
 
 import numpy as np
 import pandas as pd
 
-from .levels import Severity
+from .levels import Severity  # noqa: F401  (re-exported: rules.base.Severity)
 from .severity import severity_of
 
 
@@ -79,8 +80,23 @@ def findings(mask: np.ndarray, code: str, sentence: Callable[[int], str],
     if rows.size == 0:
         return empty_findings()
     worst = np.asarray(value, float)[rows] if value is not None else np.full(rows.size, np.nan)
+    text = [sentence(i) for i in rows] if _SENTENCES[0] else [""] * rows.size
     return pd.DataFrame({"case_row": rows, "code": code, "severity": int(severity_of(code)),
-                         "sentence": [sentence(i) for i in rows], "value": worst})
+                         "sentence": text, "value": worst})
+
+
+_SENTENCES = [True]  # off only inside ``without_sentences``
+
+
+@contextmanager
+def without_sentences():
+    """Findings without their sentences: for audits read only as counts (history samples), where
+    writing a sentence per sample per finding costs more than the rule itself."""
+    _SENTENCES[0] = False
+    try:
+        yield
+    finally:
+        _SENTENCES[0] = True
 
 
 def combine(*frames: pd.DataFrame) -> pd.DataFrame:

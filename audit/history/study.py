@@ -189,7 +189,7 @@ def _audit_chunk(ll: LineList, valve_ids: list[int], samples: list[Samples], rul
     # No what-if scaling on observed data; every sample is its own state, so properties come from tables
     # checked against the full equation (fluid.tables; within 0.1 % on density and vapour pressure).
     observed = Options(p_atm=options.p_atm, backend=options.backend, thresholds=options.thresholds,
-                       property_tables=property_tables)
+                       property_tables=property_tables, summarise=False)  # counts only: no sentences, no ranking
     audited = compute(chunk, observed).cases
     return audited
 

@@ -89,15 +89,19 @@ def _join_notes(*columns: pd.Series) -> list[str]:
 def to_csv_text(frame: pd.DataFrame) -> str:
     """CSV text: formula-like cells neutralised, booleans true/false, floats to 6 significant digits.
 
-    Built column by column into lists of strings and written by the csv module (the same quoting
-    pandas uses), without a second copy of the table as a DataFrame of Python strings.
+    Built column by column into lists of strings, a block of rows at a time, and written by the csv
+    module (the same quoting pandas uses), without a copy of the whole table as Python strings.
     """
-    columns = [_cells(frame[c]) for c in frame.columns]
     buf = io.StringIO()
     writer = csv.writer(buf, lineterminator="\n")
     writer.writerow([str(c) for c in frame.columns])
-    writer.writerows(zip(*columns))
+    for start in range(0, len(frame), CSV_BLOCK_ROWS):  # a block at a time: few cell strings alive at once
+        part = frame.iloc[start:start + CSV_BLOCK_ROWS]
+        writer.writerows(zip(*(_cells(part[c]) for c in part.columns)))
     return buf.getvalue()
+
+
+CSV_BLOCK_ROWS = 5000
 
 
 def _cells(series: pd.Series) -> list:

@@ -27,6 +27,7 @@ SEVERITY_MEANING = {
     Severity.CLEAR: "nothing found",
 }
 SEVERITY_MARK = {4: "!!!!", 3: "!!!", 2: "!!", 1: "!", 0: "-"}
+PRINT_HEADROOM_ROWS = 200  # the PDF lists the valves with least headroom; the page and valves.csv list all
 PLOT_FROM = Severity.WATCH  # valves with a finding of this severity or worse get plots
 
 METHODS = [
@@ -142,7 +143,17 @@ def _case_table(cases: pd.DataFrame) -> dict:
             cells = [_fmt(float(v) * scale + offset) if v is not None else "" for v in values]
         if any(cells):
             rows.append((label, unit, cells))
-    return {"names": names, "rows": rows}
+    return {"names": names, "rows": rows, "text": _case_text(names, rows)}
+
+
+def _case_text(names: list[str], rows: list) -> str:
+    """The same table as aligned plain text, for print: a PDF lays out a text block some ten times
+    faster than a table of cells, and a report for thousands of valves holds thousands of them."""
+    width = max([10] + [len(n) + 2 for n in names])
+    lines = [f"{'quantity':<20}{'unit':<8}" + "".join(f"{n:>{width}}" for n in names)]
+    for label, unit, cells in rows:
+        lines.append(f"{label:<20}{unit:<8}" + "".join(f"{c[:width - 1]:>{width}}" for c in cells))
+    return "\n".join(lines)
 
 
 def build_context(audit, meta: dict, plots: bool = True, progress=None, images: bool = False) -> dict:
@@ -328,4 +339,5 @@ def _stage(progress, title: str):
 def render_html(context: dict, for_print: bool = False) -> str:
     """The page; for_print: per-valve plots as PNG images where drawn (the PDF's layout of a vector plot
     costs ten times that of an image), vector plots otherwise."""
-    return _env().get_template("report.html").render(**context, for_print=for_print)
+    return _env().get_template("report.html").render(**context, for_print=for_print,
+                                                      print_headroom_rows=PRINT_HEADROOM_ROWS)
