@@ -41,7 +41,7 @@ def _svg(fig) -> str:
     return _lighten(text.replace("xlink:href=", "href="))
 
 
-PNG_DPI = 110  # print: readable at the page width of A4; the image costs a tenth of the layout of the same SVG
+PNG_DPI = 96  # print: readable at the page width of A4 (a 7.2 in figure, 690 pixels across); smaller is faster
 
 
 def png_base64(fig) -> str:
