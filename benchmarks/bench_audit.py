@@ -50,6 +50,64 @@ def _measure_audit(path: str, out: str, formats: str) -> dict:
             "stages": dict(TIMES), "import_seconds": t_import}
 
 
+class TreeMemory:
+    """Peak proportional set size (PSS) of this process and all its descendants, sampled every 0.2 s.
+
+    PSS shares each page among the processes that map it, so forked workers that share the parent's
+    pages are not counted twice (Linux /proc/<pid>/smaps_rollup; 0 where it cannot be read)."""
+
+    def __init__(self):
+        import os
+        import threading
+
+        self.peak_mb = 0.0
+        self._stop = threading.Event()
+        self._root = os.getpid()
+        self._thread = threading.Thread(target=self._run, daemon=True)
+
+    def _tree(self) -> list[int]:
+        import os
+
+        parent = {}
+        for name in os.listdir("/proc"):
+            if name.isdigit():
+                try:
+                    with open(f"/proc/{name}/stat") as fh:
+                        parent[int(name)] = int(fh.read().rsplit(")", 1)[1].split()[1])
+                except (OSError, ValueError, IndexError):
+                    pass
+        tree, todo = [], [self._root]
+        while todo:
+            pid = todo.pop()
+            tree.append(pid)
+            todo += [c for c, pp in parent.items() if pp == pid]
+        return tree
+
+    @staticmethod
+    def _pss_kb(pid: int) -> int:
+        try:
+            with open(f"/proc/{pid}/smaps_rollup") as fh:
+                for line in fh:
+                    if line.startswith("Pss:"):
+                        return int(line.split()[1])
+        except OSError:
+            pass
+        return 0
+
+    def _run(self):
+        while not self._stop.is_set():
+            self.peak_mb = max(self.peak_mb, sum(self._pss_kb(p) for p in self._tree()) / 1024.0)
+            self._stop.wait(0.2)
+
+    def __enter__(self):
+        self._thread.start()
+        return self
+
+    def __exit__(self, *exc):
+        self._stop.set()
+        self._thread.join()
+
+
 def _measure_report(path: str, out: str, plots_in_pdf: str = "png") -> dict:
     """In this (fresh) process: the audit once, then the HTML and the PDF, each timed, with sizes and the
     process's peak memory. plots_in_pdf: 'png' (this release: images in the PDF, vector plots in the
@@ -71,7 +129,8 @@ def _measure_report(path: str, out: str, plots_in_pdf: str = "png") -> dict:
     (Path(out) / "report.html").write_text(html, encoding="utf-8")
     t_html = time.perf_counter() - t0
     t0 = time.perf_counter()
-    render_pdf(render_html(context, for_print=images), Path(out) / "report.pdf")
+    with TreeMemory() as memory:
+        render_pdf(render_html(context, for_print=images), Path(out) / "report.pdf")
     t_pdf = time.perf_counter() - t0
     plotted = sum(1 for d in context["details"] if d["svg"])
     return {"html_seconds": t_html, "pdf_seconds": t_pdf, "valves": len(audit.valves),
@@ -79,7 +138,8 @@ def _measure_report(path: str, out: str, plots_in_pdf: str = "png") -> dict:
             "html_mb": (Path(out) / "report.html").stat().st_size / 1e6,
             "pdf_mb": (Path(out) / "report.pdf").stat().st_size / 1e6,
             "peak_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
-            + resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024.0}
+            + resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024.0,
+            "pdf_tree_pss_mb": memory.peak_mb}
 
 
 def reference_row_by_row(path: Path) -> tuple[list[dict], float]:
@@ -218,11 +278,12 @@ def main(argv=None) -> int:
             rep = _child("_measure_report", str(lists[small]), str(out), mode)
             print(f"report for {rep['valves']} valves ({rep['valves_with_findings']} with findings, "
                   f"{rep['valves_plotted']} plotted), {words}: HTML {rep['html_seconds']:.1f} s "
-                  f"{rep['html_mb']:.1f} MB, PDF {rep['pdf_seconds']:.1f} s {rep['pdf_mb']:.1f} MB, peak memory "
-                  f"{rep['peak_mb']:.0f} MB (this process plus its largest worker)")
+                  f"{rep['html_mb']:.1f} MB, PDF {rep['pdf_seconds']:.1f} s {rep['pdf_mb']:.1f} MB, memory while "
+                  f"printing {rep['pdf_tree_pss_mb']:.0f} MB (peak PSS of the process and its workers)")
         if not args.small:
             print(f"  target: PDF for 2,000 valves under 60 s and 1 GB: "
-                  f"{'met' if rep['pdf_seconds'] < 60 and rep['peak_mb'] < 1024 else 'NOT met'}")
+                  f"{'met' if rep['pdf_seconds'] < 60 and rep['pdf_tree_pss_mb'] < 1024 else 'NOT met'} "
+                  "(one run; the machine is noisy, repeat it)")
     return 0
 
 

@@ -108,9 +108,9 @@ def render_pdf(html: str, path: Path, workers: int | None = None) -> None:
 
     with concurrent.futures.ProcessPoolExecutor(len(docs), mp_context=multiprocessing.get_context("fork"),
                                                 initializer=die_with_parent) as pool:
-        pdfs = list(pool.map(_pdf_bytes, docs))
-    writer = PdfWriter()
-    for data in pdfs:
-        writer.append(PdfReader(io.BytesIO(data)))
+        futures = [pool.submit(_pdf_bytes, doc) for doc in docs]
+        writer = PdfWriter()
+        for future in futures:  # in order; a part is joined as soon as it is done, while later ones render
+            writer.append(PdfReader(io.BytesIO(future.result())))
     with open(path, "wb") as fh:
         writer.write(fh)
