@@ -108,7 +108,7 @@ def _with_history(audit: Audit, options: Options, history, progress) -> Audit:
 
     files = len(history.files)
     with progress.stage(f"Reading and auditing the process history ({files} file{'s' if files != 1 else ''})"):
-        result = study_history(audit, history, options, progress)
+        result = study_history(audit, history, options)
     used = int(result.table["samples_used"].sum()) if len(result.table) else 0
     progress.say(f"History: {len(result.table)} valves, {int(result.table['samples_read'].sum()):,} samples read, "
                  f"{used:,} audited")

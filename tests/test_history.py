@@ -357,3 +357,22 @@ def test_sample_history_shows_what_it_was_built_for(tmp_path):
     res = pd.read_csv(out / "results.csv", keep_default_na=False)
     rep = res[res["case"].str.startswith("hist_")]
     assert len(rep) == 3 * len(table) and rep["time"].str.endswith("Z").all()
+
+
+def test_standard_volume_flow_signal_against_mass_flow_cases(tmp_path):
+    # Nitrogen cases in kg/h, its flow signal in Nm3/h: the operating floor (2 % of the largest case
+    # flow, docs/history.md) is compared in the signal's basis. 1,000 kg/h of nitrogen is about
+    # 800 Nm3/h (density 1.25 kg/m3 at 0 degC and 1 atm, CoolProp), so the floor is about 16 Nm3/h:
+    # 1 Nm3/h is below it, 500 Nm3/h above.
+    n = 50
+    flows = np.r_[np.full(20, 1.0), np.full(30, 500.0)]
+    data = {"time": times(n), "FG [Nm3/h]": flows, "PG1 [bar]": 10 + 0.01 * np.arange(n),
+            "PG2 [bar]": 6 + 0.01 * np.arange(n), "TG [degC]": 27 + 0.01 * np.arange(n)}
+    header = ("tag,fluid,valve_size,rated_cv,fl,xt,fd,flow_min,p_in_min [bar],p_out_min [bar],t_in_min [degC],"
+              "flow_max,p_in_max [bar],p_out_max [bar],t_in_max [degC],hist_flow,hist_p_in,hist_p_out,hist_t_in")
+    rows = ["G-1,Nitrogen,50 mm,80,0.9,0.7,0.46,500 kg/h,10,6,27,1000 kg/h,10,5,27,FG,PG1,PG2,TG"]
+    ll, hist = write(tmp_path, rows, data, header=header)
+    result, out = run(tmp_path, ll, hist)
+    assert result.exit_code == 0, result.output
+    row = history_row(out, "G-1")
+    assert (row.excluded_not_operating, row.samples_used) == (20, 30)

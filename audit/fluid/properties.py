@@ -236,6 +236,15 @@ def _key_number(x: float) -> float:
     return round(float(x), 6) if np.isfinite(x) else -1.0
 
 
+def empty_inlet(n: int) -> dict[str, np.ndarray]:
+    """The layout ``inlet_properties`` returns, for n cases, with nothing evaluated yet."""
+    out = {name: np.full(n, np.nan) for name in INLET_FIELDS}
+    out["phase"] = np.full(n, "", dtype=object)
+    out["note"] = np.full(n, "", dtype=object)
+    out["error"] = np.full(n, "", dtype=object)
+    return out
+
+
 def inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray,
                      phase_given: np.ndarray, backend: str = "HEOS",
                      quality: np.ndarray | None = None) -> dict[str, np.ndarray]:
@@ -256,10 +265,7 @@ def inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray,
     """
     n = len(fluids)
     quality = np.full(n, np.nan) if quality is None else np.asarray(quality, float)
-    out = {name: np.full(n, np.nan) for name in INLET_FIELDS}
-    out["phase"] = np.full(n, "", dtype=object)
-    out["note"] = np.full(n, "", dtype=object)
-    out["error"] = np.full(n, "", dtype=object)
+    out = empty_inlet(n)
     for i in range(n):
         fluid = fluids[i]
         if fluid is None or not np.isfinite(p[i]):

@@ -28,7 +28,7 @@ import numpy as np
 import CoolProp.CoolProp as CP
 
 from audit.fluid.names import Fluid
-from audit.fluid.properties import INLET_FIELDS, inlet_properties
+from audit.fluid.properties import INLET_FIELDS, empty_inlet, inlet_properties
 
 PROMISED_REL_ERROR = 1e-3     # density and vapour pressure, against the full equation
 CHECK_REL_ERROR = 5e-4        # what a table must show on its own check points to be used
@@ -38,14 +38,6 @@ START_NODES = 24              # per axis; refined up to START_NODES * 2**MAX_REF
 MAX_REFINE = 2
 LOG_FIELDS = ("rho", "pv", "mu")  # interpolated as logarithms (near-exponential in T, or linear in p)
 CHECKED = ("rho", "pv", "mu", "sound_speed", "k")  # what the self-check compares (sizing and noise read them)
-
-
-def _empty(n: int) -> dict:
-    out = {name: np.full(n, np.nan) for name in INLET_FIELDS}
-    out["phase"] = np.full(n, "", dtype=object)
-    out["note"] = np.full(n, "", dtype=object)
-    out["error"] = np.full(n, "", dtype=object)
-    return out
 
 
 def _scatter(out: dict, idx: np.ndarray, part: dict) -> None:
@@ -171,7 +163,7 @@ def tabulated_inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.
     n = len(fluids)
     p, t = np.asarray(p, float), np.asarray(t, float)
     quality = np.full(n, np.nan) if quality is None else np.asarray(quality, float)
-    out = _empty(n)
+    out = empty_inlet(n)
     full_needed = np.ones(n, dtype=bool)
     simple = np.isfinite(p) & np.isfinite(t) & ~np.isfinite(quality) & (p > 0)
     label = np.zeros(n, dtype=np.int64) if groups is None else np.asarray(groups)

@@ -168,10 +168,9 @@ def read_history(paths: list[Path], tz: str = "UTC") -> History:
             if u and str(u).strip() and key not in units:
                 units[key] = str(u).strip()
         stamps, ok, amb = (np.tile(a, repeats) for a in parse_times(time.to_numpy(), tz))
-        for key in pd.unique(keys[~ok & ~amb]):
-            bad_times[key] = bad_times.get(key, 0) + int(np.sum((keys == key) & ~ok & ~amb))
-        for key in pd.unique(keys[amb]):
-            dst[key] = dst.get(key, 0) + int(np.sum((keys == key) & amb))
+        for counts, mask in ((bad_times, ~ok & ~amb), (dst, amb)):
+            for key, count in pd.Series(keys[mask]).value_counts().items():
+                counts[key] = counts.get(key, 0) + int(count)
         sig_parts.append(keys[ok])
         time_parts.append(stamps[ok])
         text_parts.append(value.to_numpy(dtype=object)[ok])

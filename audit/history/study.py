@@ -15,6 +15,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from audit.fluid.outlet import standard_density
+from audit.fluid.properties import ideal_gas_density
 from audit.history.read import History, parse_values, read_history, signal_key, split_signal
 from audit.history.samples import (NOT_OPERATING_FLOW_SHARE, REASONS, Samples, clean, series_of,
                                    stuck_records)
@@ -108,8 +110,11 @@ class _Records:
         return self.time[idx], self.value[idx]
 
 
-def _case_flow_in(basis: str, std_ref, cases: pd.DataFrame) -> np.ndarray:
-    """The line list's case flows (unscaled by any what-if) in the SI of the history flow's basis."""
+def _case_flow_in(basis: str, std_ref, cases: pd.DataFrame, fluid) -> np.ndarray:
+    """The line list's case flows (unscaled by any what-if) in the SI of the history flow's basis.
+
+    A standard volume uses the same standard density as the engine (``fluid.outlet.standard_density``:
+    real gas where CoolProp has the fluid as a gas there, else the ideal gas)."""
     scale = cases["flow_scale"].to_numpy(float) if "flow_scale" in cases else 1.0
     w = cases["w"].to_numpy(float) / scale
     if basis == "mass":
@@ -117,8 +122,10 @@ def _case_flow_in(basis: str, std_ref, cases: pd.DataFrame) -> np.ndarray:
     if basis == "volume":
         return w / cases["rho"].to_numpy(float)
     t_std, p_std = std_ref
-    rho_std = p_std * cases["molar_mass"].to_numpy(float) / 1000.0 / (8.314462618 * t_std)
-    return w / rho_std
+    n = len(cases)
+    real = standard_density([fluid] * n, np.full(n, t_std), np.full(n, p_std))
+    ideal = ideal_gas_density(p_std, t_std, cases["molar_mass"].to_numpy(float), 1.0)
+    return w / np.where(np.isfinite(real), real, ideal)
 
 
 def _valve_samples(v: int, signals: dict, rec: _Records, ll: LineList, base_cases: pd.DataFrame,
@@ -142,7 +149,7 @@ def _valve_samples(v: int, signals: dict, rec: _Records, ll: LineList, base_case
     if not len(mine):
         return None, None, (), "no auditable line-list case to take missing quantities and the operating floor from"
     flow_rule = rules["flow"]
-    case_flow = _case_flow_in(flow_rule.flow_basis, flow_rule.std_ref, mine)
+    case_flow = _case_flow_in(flow_rule.flow_basis, flow_rule.std_ref, mine, ll.valves["fluid_obj"].iat[v])
     order = np.argsort(case_flow, kind="stable")
     xs = case_flow[order]
     assumed = {}
@@ -258,7 +265,7 @@ def representative(g: pd.DataFrame, v: int, trend: float, period_days: float) ->
         "hist_gap_trend": trend, "hist_period_days": period_days})
 
 
-def study_history(base, settings: HistorySettings, options, progress=None) -> HistoryResult:
+def study_history(base, settings: HistorySettings, options) -> HistoryResult:
     """Read, clean and audit the history of every valve that names signals; see the module docstring.
 
     base: the audit of the line list's own cases (its case flows, densities and pressures set the

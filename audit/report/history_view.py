@@ -42,7 +42,7 @@ def history_rows(table: pd.DataFrame) -> list[dict]:
 
 def trace_svg(trace: pd.DataFrame, tag: str) -> str:
     """Predicted and observed travel (top) and choke ratio (bottom) over time, as inline SVG."""
-    from audit.report.plots import _svg, plt
+    from audit.report.plots import svg_text, plt
 
     t = pd.to_datetime(trace["time_ns"].to_numpy(np.int64).astype("datetime64[ns]"))
     step = max(1, len(t) // MAX_POINTS)
@@ -62,7 +62,7 @@ def trace_svg(trace: pd.DataFrame, tag: str) -> str:
         fig.autofmt_xdate()
         fig.suptitle(f"{tag}: operating samples", fontsize=8)
         fig.tight_layout()
-        return _svg(fig)
+        return svg_text(fig)
     finally:
         plt.close(fig)
 

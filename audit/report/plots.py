@@ -29,7 +29,7 @@ from audit.iec.sizing import flow_through  # noqa: E402
 _CASE_MARKERS = ["o", "s", "^", "D", "v", "P", "X", "*"]
 
 
-def _svg(fig) -> str:
+def svg_text(fig) -> str:
     buf = io.StringIO()
     fig.savefig(buf, format="svg")
     text = buf.getvalue()
@@ -105,7 +105,7 @@ def fleet_svg(ratios: np.ndarray, tags: list[str]) -> str:
     ax.set_xlim(0.3, len(r) + 0.7)
     if len(r) <= 40:
         ax.set_xticks(x, [tags[i] for i in order], rotation=90, fontsize=6)
-    svg = _svg(fig)
+    svg = svg_text(fig)
     plt.close(fig)
     return svg
 
@@ -152,7 +152,7 @@ class ValvePlots:
         sized = valve_cases[np.isfinite(valve_cases["cv"].to_numpy(float))]
         self._flow_panel(sized, worst)
         self._characteristic_panel(sized, worst)
-        return _svg(self.fig), (png_base64(self.fig) if png else "")
+        return svg_text(self.fig), (png_base64(self.fig) if png else "")
 
     def _place(self, k, xs, ys, names):
         for j in range(len(_CASE_MARKERS)):
