@@ -88,6 +88,49 @@ def test_pdf_repeats_table_headers_on_every_page(sample_reports):
         assert "capacity" in text and "worst" in text and "findings" in text   # its header row on each page
 
 
+@pytest.fixture(scope="module")
+def sample_print_html():
+    from audit.pipeline import run_audit, run_metadata
+    from audit.report.html import build_context, render_html
+    options = Options()
+    audit = run_audit(SAMPLE_CSV, options)
+    context = build_context(audit, run_metadata(audit.linelist, options, None, None), images=True)
+    return render_html(context, for_print=True)
+
+
+def test_split_for_print_keeps_every_row_and_section_once_in_order(sample_print_html, monkeypatch):
+    from audit.report import pdf
+    monkeypatch.setattr(pdf, "PDF_PARALLEL_FROM", 5)
+    html = sample_print_html
+    docs = pdf.split_for_print(html, 2, part_cost=4.0)   # small parts, so tables are cut between rows
+    assert len(docs) >= 6
+    rows = re.findall(r'<tr id="row-\d+"', html)
+    sections = re.findall(r'<section class="valve" id="[^"]+"', html)
+    assert re.findall(r'<tr id="row-\d+"', "".join(docs)) == rows
+    assert re.findall(r'<section class="valve" id="[^"]+"', "".join(docs)) == sections
+    ranked_head = html[html.index('<table id="ranked-table"'):html.index("</thead>", html.index('<table id="ranked-table"'))]
+    holding = [d for d in docs if '<tr id="row-' in d]
+    assert len(holding) >= 2   # the ranked table itself is cut, the case this checks
+    for doc in docs:
+        body = doc[doc.index("<body>"):]
+        assert body.count("<table") == body.count("</table>")   # every table cut is closed and reopened
+    for doc in holding:   # each part with ranked rows opens the table with its header row
+        assert ranked_head in doc
+
+
+def test_pdf_in_parts_lists_valves_in_ranked_order_with_headers(sample_print_html, tmp_path, monkeypatch):
+    from audit.report import pdf
+    monkeypatch.setattr(pdf, "PDF_PARALLEL_FROM", 5)
+    out = tmp_path / "report.pdf"
+    pdf.render_pdf(sample_print_html, out, workers=2, part_cost=6.0)
+    pages = [p.extract_text() for p in PdfReader(out).pages]
+    text = "\n".join(pages)
+    assert "part 1 of" in pages[0] and "part 2 of" in text
+    tags = re.findall(r'<tr id="row-\d+"[^>]* data-tag="([^"]+)"', sample_print_html)
+    assert len(tags) > 30
+    _in_order(text[text.rindex("All audited valves, ranked"):text.rindex("Valves with findings")], tags)
+
+
 def test_pdf_places_plots_as_images_and_html_keeps_vectors(sample_reports):
     # Images in the PDF (ISO 32000-1 8.9: image XObjects), vector SVG in the HTML; both from one drawing.
     reader = PdfReader(sample_reports / "report.pdf")

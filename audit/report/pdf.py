@@ -57,56 +57,86 @@ def _pdf_bytes(html: str) -> bytes:
 
 
 PDF_PARALLEL_FROM = 80  # valve sections; a smaller report is one document with "page n of m"
+# Rendering costs measured at 2,000 valves (1,399 valve sections, 2,392 rows in the summary tables), a
+# part at a time: 37 ms a valve section, 10.5 ms a table row.  A part holds about PART_COST sections'
+# worth, so what a worker holds is bounded by the part, not by the report (half of a 2,000-valve report
+# at once took over 1 GB a worker).
+ROW_COST = 10.5 / 37.0
+PART_COST = 100.0
 
 
-def split_for_print(html: str, parts: int) -> list[str]:
-    """The report as ``parts`` documents, cut between valve sections, each with the full styles.
+def _table_cuts(html: str, start: int, end: int) -> list[tuple[int, tuple[str, str]]]:
+    """Places between the body rows of the tables in html[start:end], each with the markup that closes
+    the table before the cut and reopens it, header row included, after it."""
+    cuts = []
+    for m in re.finditer("<table", html[start:end]):
+        t0 = start + m.start()
+        t1 = html.index("</table>", t0)
+        head_end = html.find("</thead>", t0, t1)
+        if head_end < 0:
+            continue
+        head_end += len("</thead>")
+        tbody = html[head_end:t1].lstrip().startswith("<tbody>")
+        opening = html[t0:head_end] + ("<tbody>" if tbody else "")
+        closing = "</tbody></table>" if tbody else "</table>"
+        rows = [head_end + r.start() for r in re.finditer("<tr", html[head_end:t1])]
+        cuts += [(pos, (opening, closing)) for pos in rows[1:]]
+    return cuts
 
-    The renderer is single-threaded and takes some 0.1 s per valve section; cut in parts, the
-    cores share the work and the parts' pages are joined in order.  Page numbers then run per
-    part ("part 2 of 2, page 7").
+
+def split_for_print(html: str, parts: int, part_cost: float = PART_COST) -> list[str]:
+    """The report as documents of about ``part_cost`` valve sections' worth each (at least ``parts`` of
+    them), cut between valve sections, headings or table rows, each with the full styles.
+
+    The renderer is single-threaded and its memory grows with the document; cut in parts, the cores share
+    the work, each holds one part at a time, and the parts' pages are joined in order.  A table cut
+    between parts ends in one and starts again, header row first, in the next.  Page numbers run per
+    part ("part 2 of 9, page 7").
     """
     starts = [m.start() for m in re.finditer('<section class="valve"', html)]
     if parts < 2 or len(starts) < PDF_PARALLEL_FROM:
         return [html]
     body_at = html.index("<body>") + len("<body>")
-    end_at = html.index('<h2 id="rejected"')
-    head, tail = html[:body_at], html[end_at:html.rindex("</body>")]
-    prefix = html[body_at:starts[0]]
-    bounds = starts + [end_at]
-    # Balance the parts by estimated cost: a valve section is 1, a row of the summary, ranked and
-    # headroom tables about 1/4 of one (measured at 2,000 valves with images in the PDF, the parts
-    # rendered one after the other: 53 ms a section, 12.5 ms a table row).
-    cost = np.r_[prefix.count("<tr") / 4.2, np.ones(len(starts))]
-    edges = np.searchsorted(np.cumsum(cost), np.arange(1, parts) * cost.sum() / parts) - 1
-    edges = np.clip(edges, 1, len(starts) - 1)
-    groups = [g for g in np.split(np.arange(len(starts)), edges) if len(g)]
-    parts = len(groups)
+    body_end = html.rindex("</body>")
+    first = starts[0]
+    cuts = [(m.start(), None) for m in re.finditer("<h[23] ", html[body_at:first]) if m.start() > 0]
+    cuts = [(body_at + pos, None) for pos, _ in cuts] + _table_cuts(html, body_at, first)
+    cuts = sorted(cuts + [(pos, None) for pos in starts[1:]])
+    at = np.array([pos for pos, _ in cuts])
+    rows = np.array([m.start() + body_at for m in re.finditer("<tr", html[body_at:first])])
+    cost_at = np.searchsorted(starts, at) + ROW_COST * np.searchsorted(rows, at)
+    total = len(starts) + ROW_COST * len(rows)
+    parts = max(parts, int(np.ceil(total / part_cost)))
+    chosen = np.unique(np.clip(np.searchsorted(cost_at, np.arange(1, parts) * total / parts), 0, len(at) - 1))
+    bounds = [body_at] + [int(at[i]) for i in chosen] + [body_end]
+    reopen = [None] + [cuts[i][1] for i in chosen] + [None]
+    head = html[:body_at]
     docs = []
-    for k, group in enumerate(groups):
+    for k in range(len(bounds) - 1):
         footer = (f'<style>@page {{ @bottom-center {{ content: "valve-audit screening report, part {k + 1} of '
-                  f'{parts}, page " counter(page); }} }}</style>')
-        middle = html[bounds[group[0]]:bounds[group[-1] + 1]]
-        docs.append(head + footer + (prefix if k == 0 else "") + middle + (tail if k == parts - 1 else "")
-                    + "</body></html>")
+                  f'{len(bounds) - 1}, page " counter(page); }} }}</style>')
+        before = reopen[k][0] if reopen[k] else ""
+        after = reopen[k + 1][1] if reopen[k + 1] else ""
+        docs.append(head + footer + before + html[bounds[k]:bounds[k + 1]] + after + "</body></html>")
     return docs
 
 
-def render_pdf(html: str, path: Path, workers: int | None = None) -> None:
-    """Write the report as PDF; large reports are rendered in parts on all cores and joined."""
+def render_pdf(html: str, path: Path, workers: int | None = None, part_cost: float = PART_COST) -> None:
+    """Write the report as PDF; large reports are rendered in parts of about ``part_cost`` valve sections
+    each, on all cores, and joined in order."""
     import concurrent.futures
     import io
     import multiprocessing
     import os
 
     workers = workers or min(os.cpu_count() or 1, 8)
-    docs = split_for_print(html, workers)
+    docs = split_for_print(html, workers, part_cost)
     if len(docs) == 1:
         Path(path).write_bytes(_pdf_bytes(html))
         return
     from pypdf import PdfReader, PdfWriter
 
-    with concurrent.futures.ProcessPoolExecutor(len(docs), mp_context=multiprocessing.get_context("fork"),
+    with concurrent.futures.ProcessPoolExecutor(min(workers, len(docs)), mp_context=multiprocessing.get_context("fork"),
                                                 initializer=die_with_parent) as pool:
         futures = [pool.submit(_pdf_bytes, doc) for doc in docs]
         writer = PdfWriter()
