@@ -34,15 +34,44 @@ def signal_key(name: str) -> str:
 
 
 @dataclass
+class _Part:
+    """One file's readable records of some signals: a wide file's columns over its shared times, or a long
+    file's rows grouped by signal."""
+    time: np.ndarray            # int64 ns UTC, one per readable row (wide) or record (long)
+    columns: dict               # signal key -> wide: [column names]; long: row indices into ``time``
+    frame: object               # wide: the file's table (pyarrow Table or pandas DataFrame); long: its
+                                # values parsed to numbers
+
+    def raw(self, key: str) -> tuple[np.ndarray, np.ndarray]:
+        if isinstance(self.columns[key], np.ndarray):   # long: this signal's records
+            rows = self.columns[key]
+            return self.time[rows], self.frame[rows]
+        times, values = [], []
+        for name in self.columns[key]:   # wide: a signal written twice in one file keeps both
+            times.append(self.time)
+            values.append(_numbers(self.frame, name, self.ok))
+        return np.concatenate(times), np.concatenate(values)
+
+    ok: np.ndarray = None       # wide: rows of the table whose time could be read
+
+
+@dataclass
 class History:
-    """Every record of every history file, long form, in file order."""
-    signal: np.ndarray          # signal key per record (object)
-    time: np.ndarray            # int64 ns since 1970, UTC; records whose time could not be read are dropped
-    text: np.ndarray            # the value as written (object: str or number)
+    """Every history file, read once and held as its columns; a signal's records are parsed to numbers
+    only when asked for (``raw``), so a chunk of valves costs only its own signals."""
+    parts: list = field(default_factory=list)   # _Part, in file order
     unit: dict = field(default_factory=dict)    # signal key -> unit the file gives ('' if none)
     names: dict = field(default_factory=dict)   # signal key -> the name as first written
     bad_times: dict = field(default_factory=dict)  # signal key -> records with no readable time
     dst_repeats: dict = field(default_factory=dict)  # signal key -> records at a repeated local hour (no offset)
+
+    def raw(self, key: str) -> tuple[np.ndarray, np.ndarray]:
+        """(time [ns UTC], value [as written, NaN where not a finite number]) of every readable record of
+        one signal, in file order."""
+        got = [part.raw(key) for part in self.parts if key in part.columns]
+        if not got:
+            return np.zeros(0, dtype=np.int64), np.zeros(0)
+        return np.concatenate([t for t, _ in got]), np.concatenate([v for _, v in got])
 
 
 def parse_times(values, tz: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -106,22 +135,38 @@ def _localise(naive: pd.Series, tz: str, ambiguous: np.ndarray) -> pd.Series:
     return local
 
 
-def _frame(path: Path) -> pd.DataFrame:
+def _header(path: Path) -> list[str]:
+    import csv
+
+    with open(path, newline="", encoding="utf-8-sig") as fh:
+        return [str(c).strip() for c in next(csv.reader(fh), [])]
+
+
+def _frame(path: Path):
+    """The file as a pyarrow Table (pandas' reader where pyarrow cannot read a CSV): numeric columns as
+    numbers, any column holding a quality string as text, the time column always as text or timestamps."""
     suffix = path.suffix.lower()
     try:
         if suffix == ".parquet":
             import pyarrow.parquet as pq
-            return pq.read_table(path).to_pandas()
-        # Every cell as text: a quality string must survive to be counted, not become NaN here. pyarrow's
-        # reader is some three times faster than pandas' own on wide exports (benchmarks/bench_history.py).
+            return pq.read_table(path)
+        names = _header(path)
         try:
-            frame = pd.read_csv(path, dtype=str, keep_default_na=False, engine="pyarrow")
+            import pyarrow as pa
+            from pyarrow import csv as pacsv
+            # pyarrow's reader keeps a wide export as compact columns (a number takes 8 bytes, not a
+            # Python string's 50 or more); a column with any quality string stays text, parsed later.
+            times = {n: pa.string() for n in names if n.casefold() in ("time", "signal", "unit")}
+            return pacsv.read_csv(path, read_options=pacsv.ReadOptions(column_names=names, skip_rows=1),
+                                  convert_options=pacsv.ConvertOptions(column_types=times))
         except (ImportError, ValueError, OSError):
             frame = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True, encoding="utf-8-sig")
-        frame.columns = [str(c).strip().lstrip("\ufeff") for c in frame.columns]
-        return frame
+            frame.columns = [str(c).strip().lstrip("\ufeff") for c in frame.columns]
+            return frame
     except FileNotFoundError:
         raise InputError(f"history file '{path}': no such file") from None
+    except StopIteration:
+        raise InputError(f"history file '{path}' is empty") from None
     except (OSError, ValueError, UnicodeDecodeError) as exc:
         raise InputError(f"history file '{path}' cannot be read as {'Parquet' if suffix == '.parquet' else 'CSV'}: "
                          f"{str(exc)[:160]}") from None
@@ -131,55 +176,102 @@ def _frame(path: Path) -> pd.DataFrame:
         raise
 
 
-def _long(frame: pd.DataFrame, path: Path) -> tuple[pd.Series, pd.Series, pd.Series, pd.Series, int]:
-    """(time, signal with any bracketed unit, value, unit, repeats) of a wide or long file; a wide file's
-    time column is given once and ``repeats`` says how many signals share it (its times are parsed once)."""
-    lower = {str(c).strip().casefold(): c for c in frame.columns}
+def _column_names(frame) -> list[str]:
+    return [str(c) for c in (frame.column_names if hasattr(frame, "column_names") else frame.columns)]
+
+
+def _column(frame, name: str) -> np.ndarray:
+    """One column as numpy (objects for text, datetime64 for timestamps, floats for numbers)."""
+    if hasattr(frame, "column_names"):
+        return frame.column(name).to_pandas().to_numpy()
+    return frame[name].to_numpy()
+
+
+def _numbers(frame, name: str, rows: np.ndarray | None = None) -> np.ndarray:
+    """A value column as floats: a number where the cell holds a finite number, else NaN."""
+    if hasattr(frame, "column_names"):
+        import pyarrow as pa
+        import pyarrow.compute as pc
+
+        col = frame.column(name)
+        if pa.types.is_integer(col.type) or pa.types.is_floating(col.type) or pa.types.is_decimal(col.type):
+            values = pc.fill_null(col.cast(pa.float64()), np.nan).to_numpy()
+            values = values.copy() if not values.flags.writeable else values
+            values[~np.isfinite(values)] = np.nan
+        else:
+            values = parse_values(col.cast(pa.string()).to_pandas().to_numpy(dtype=object))
+    else:
+        values = parse_values(frame[name].to_numpy(dtype=object))
+    return values if rows is None else values[rows]
+
+
+def _part(frame, path: Path, tz: str, hist: History) -> None:
+    """Add one file's records to ``hist``: names, units, time counts and its ``_Part``."""
+    columns = _column_names(frame)
+    lower = {c.strip().casefold(): c for c in columns}
     if "time" not in lower:
         raise InputError(f"history file '{path}': no 'time' column; its columns are "
-                         f"{', '.join(repr(str(c)) for c in list(frame.columns)[:8])}")
+                         f"{', '.join(repr(c) for c in columns[:8])}")
+    stamps, ok, amb = parse_times(_column(frame, lower["time"]), tz)
     if "signal" in lower and "value" in lower:
-        unit = frame[lower["unit"]].astype(str) if "unit" in lower else pd.Series("", index=frame.index)
-        return frame[lower["time"]], frame[lower["signal"]].astype(str), frame[lower["value"]], unit, 1
-    signals = [c for c in frame.columns if c != lower["time"]]
+        raw_signal = pd.Series(_column(frame, lower["signal"])).astype(str).to_numpy(dtype=object)
+        codes, uniques = pd.factorize(raw_signal)
+        key_of_code = np.array([_register(hist, str(raw)) for raw in uniques], dtype=object)
+        keys = key_of_code[codes]
+        if "unit" in lower:   # the first unit written for a signal, unless its name brackets one
+            unit = pd.Series(_column(frame, lower["unit"])).fillna("").astype(str).str.strip()
+            given = pd.DataFrame({"k": keys, "u": unit.to_numpy(dtype=object)})
+            for key, u in given[given["u"] != ""].drop_duplicates("k").itertuples(index=False):
+                hist.unit.setdefault(key, u)
+        _count_times(hist, keys, ok, amb)
+        good = np.flatnonzero(ok)
+        key_codes, key_names = pd.factorize(keys[good])   # names that differ only in case are one signal
+        order = np.argsort(key_codes, kind="stable")       # stable: file order kept within a signal
+        bounds = np.searchsorted(key_codes[order], np.arange(len(key_names) + 1))
+        rows = {key: order[bounds[j]:bounds[j + 1]] for j, key in enumerate(key_names)}
+        values = parse_values(np.asarray(_column(frame, lower["value"])[good], dtype=object))
+        hist.parts.append(_Part(stamps[good], rows, values))
+        return
+    signals = [c for c in columns if c != lower["time"]]
     if not signals:
         raise InputError(f"history file '{path}': a 'time' column but no signal columns")
-    n = len(frame)
-    signal = pd.Series(np.repeat(np.array([str(s) for s in signals], dtype=object), n))
-    value = pd.Series(np.concatenate([frame[s].to_numpy(dtype=object) for s in signals]) if n else [], dtype=object)
-    return frame[lower["time"]], signal, value, pd.Series("", index=range(len(signal))), len(signals)
+    wide = {}
+    for name in signals:
+        key = _register(hist, name)
+        wide.setdefault(key, []).append(name)
+        for mask, counts in ((~ok & ~amb, hist.bad_times), (amb, hist.dst_repeats)):
+            if mask.any():
+                counts[key] = counts.get(key, 0) + int(mask.sum())
+    hist.parts.append(_Part(stamps[ok], wide, frame, ok=ok))
+
+
+def _register(hist: History, raw: str) -> str:
+    """The signal's key; its name and bracketed unit remembered where first seen."""
+    name, bracket = split_signal(raw)
+    key = signal_key(name)
+    hist.names.setdefault(key, name)
+    if bracket:
+        hist.unit.setdefault(key, bracket)
+    return key
+
+
+def _count_times(hist: History, keys: np.ndarray, ok: np.ndarray, amb: np.ndarray) -> None:
+    for counts, mask in ((hist.bad_times, ~ok & ~amb), (hist.dst_repeats, amb)):
+        if mask.any():
+            for key, count in pd.Series(keys[mask]).value_counts().items():
+                counts[key] = counts.get(key, 0) + int(count)
 
 
 def read_history(paths: list[Path], tz: str = "UTC") -> History:
     """Read every history file into one ``History``; an unreadable file is an ``InputError``."""
-    sig_parts, time_parts, text_parts = [], [], []
-    units, names, bad_times, dst = {}, {}, {}, {}
+    hist = History()
     for path in map(Path, paths):
-        time, signal, value, unit, repeats = _long(_frame(path), path)
-        split = [split_signal(s) for s in pd.unique(signal)]
-        key_of = {raw: signal_key(name) for raw, (name, _) in zip(pd.unique(signal), split)}
-        for raw, (name, bracket) in zip(pd.unique(signal), split):
-            key = key_of[raw]
-            names.setdefault(key, name)
-            if bracket:
-                units.setdefault(key, bracket)
-        keys = signal.map(key_of).to_numpy(dtype=object)
-        for key, u in zip(keys, unit.to_numpy(dtype=object)):
-            if u and str(u).strip() and key not in units:
-                units[key] = str(u).strip()
-        stamps, ok, amb = (np.tile(a, repeats) for a in parse_times(time.to_numpy(), tz))
-        for counts, mask in ((bad_times, ~ok & ~amb), (dst, amb)):
-            for key, count in pd.Series(keys[mask]).value_counts().items():
-                counts[key] = counts.get(key, 0) + int(count)
-        sig_parts.append(keys[ok])
-        time_parts.append(stamps[ok])
-        text_parts.append(value.to_numpy(dtype=object)[ok])
-    if not sig_parts:
+        _part(_frame(path), path, tz, hist)
+    if not paths:
         raise InputError("no history file given")
-    for key in names:
-        units.setdefault(key, "")
-    return History(np.concatenate(sig_parts), np.concatenate(time_parts), np.concatenate(text_parts),
-                   units, names, bad_times, dst)
+    for key in hist.names:
+        hist.unit.setdefault(key, "")
+    return hist
 
 
 def parse_values(text: np.ndarray) -> np.ndarray:

@@ -17,7 +17,7 @@ import pandas as pd
 
 from audit.fluid.outlet import standard_density
 from audit.fluid.properties import ideal_gas_density
-from audit.history.read import History, parse_values, read_history, signal_key, split_signal
+from audit.history.read import History, read_history, signal_key, split_signal
 from audit.history.samples import (NOT_OPERATING_FLOW_SHARE, REASONS, Samples, clean, series_of,
                                    stuck_records)
 from audit.io.columns import CASE_FIELDS, CASE_PLAUSIBLE, HISTORY_SIGNALS
@@ -94,22 +94,6 @@ def _named_signals(ll: LineList, hist: History) -> dict[int, dict[str, tuple[str
     return named
 
 
-class _Records:
-    """The history's records grouped by signal, values parsed once."""
-
-    def __init__(self, hist: History):
-        codes, self.keys = pd.factorize(hist.signal)
-        order = np.argsort(codes, kind="stable")  # stable: file order kept within a signal
-        bounds = np.searchsorted(codes[order], np.arange(len(self.keys) + 1))
-        self.slices = {k: order[bounds[j]:bounds[j + 1]] for j, k in enumerate(self.keys)}
-        self.time = hist.time
-        self.value = parse_values(hist.text)
-
-    def raw(self, key: str):
-        idx = self.slices[key]
-        return self.time[idx], self.value[idx]
-
-
 def _case_flow_in(basis: str, std_ref, cases: pd.DataFrame, fluid) -> np.ndarray:
     """The line list's case flows (unscaled by any what-if) in the SI of the history flow's basis.
 
@@ -128,7 +112,7 @@ def _case_flow_in(basis: str, std_ref, cases: pd.DataFrame, fluid) -> np.ndarray
     return w / np.where(np.isfinite(real), real, ideal)
 
 
-def _valve_samples(v: int, signals: dict, rec: _Records, ll: LineList, base_cases: pd.DataFrame,
+def _valve_samples(v: int, signals: dict, ll: LineList, base_cases: pd.DataFrame,
                    hist: History, settings: HistorySettings):
     """(Samples, flow rule, assumed quantities, note) for one valve; Samples is None where none can be built."""
     mine = base_cases[(base_cases["valve"].to_numpy(int) == v) & (base_cases["case_error"] == "")]
@@ -141,7 +125,7 @@ def _valve_samples(v: int, signals: dict, rec: _Records, ll: LineList, base_case
         rule = unit_rule(unit, kind)
         if rule is None:
             return None, None, (), f"signal '{hist.names[key]}': unit '{unit}' is not a {kind} unit"
-        t, raw = rec.raw(key)
+        t, raw = hist.raw(key)
         si = raw * rule.scale + rule.offset + (p_atm if rule.gauge else 0.0)
         series[q], rules[q] = series_of(t, si), rule
     if "flow" not in series:
@@ -277,7 +261,6 @@ def study_history(base, settings: HistorySettings, options) -> HistoryResult:
     ll = base.linelist
     hist = read_history(list(settings.files), settings.tz)
     named = _named_signals(ll, hist)
-    rec = _Records(hist)
     th = effective_thresholds(options.thresholds)
     rows, built = [], []
     for v, signals in sorted(named.items()):
@@ -285,7 +268,7 @@ def study_history(base, settings: HistorySettings, options) -> HistoryResult:
         row = {"tag": ll.valves["tag"].iat[v], "duplicates_dropped": 0,
                "times_unread": sum(hist.bad_times.get(k, 0) for k in keys),
                "times_ambiguous": sum(hist.dst_repeats.get(k, 0) for k in keys)}
-        samples, rule, assumed, note = _valve_samples(v, signals, rec, ll, base.cases, hist, settings)
+        samples, rule, assumed, note = _valve_samples(v, signals, ll, base.cases, hist, settings)
         row.update(assumed=";".join(assumed), note=note)
         if samples is not None:
             row.update(samples_read=len(samples.time), samples_used=int(samples.used.sum()),

@@ -124,9 +124,6 @@ def split_for_print(html: str, parts: int, part_cost: float = PART_COST) -> list
 def render_pdf(html: str, path: Path, workers: int | None = None, part_cost: float = PART_COST) -> None:
     """Write the report as PDF; large reports are rendered in parts of about ``part_cost`` valve sections
     each, on all cores, and joined in order."""
-    import concurrent.futures
-    import io
-    import multiprocessing
     import os
 
     workers = workers or min(os.cpu_count() or 1, 8)
@@ -134,13 +131,108 @@ def render_pdf(html: str, path: Path, workers: int | None = None, part_cost: flo
     if len(docs) == 1:
         Path(path).write_bytes(_pdf_bytes(html))
         return
+    del html
+    _release_freed_memory()
+    _render_parts(docs, Path(path), workers)
+
+
+def _release_freed_memory() -> None:
+    """Give the heap the audit and the page's drawing freed back to the system before printing (glibc keeps
+    freed blocks mapped: at 2,000 valves some hundreds of MB), so the process holds what it uses."""
+    import ctypes
+    import gc
+    import sys
+
+    gc.collect()
+    if sys.platform.startswith("linux"):
+        try:
+            ctypes.CDLL("libc.so.6").malloc_trim(0)
+        except (OSError, AttributeError):
+            pass
+
+
+def _render_parts(docs: list[str], path: Path, workers: int) -> None:
+    """Each part rendered by one of ``workers`` fresh processes (``python -m audit.report.pdf``), the next
+    part going to whichever is free, and the pages joined in order at the end.
+
+    Fresh processes, not forks of this one: a fork copies the audit process's memory page by page as it
+    touches it (reference counts, the garbage collector), some 200 MB a worker at 2,000 valves, and the
+    start methods that avoid that re-run the caller's main script."""
+    import io
+    import os
+    import selectors
+    import subprocess
+    import sys
+    import tempfile
+
     from pypdf import PdfReader, PdfWriter
 
-    with concurrent.futures.ProcessPoolExecutor(min(workers, len(docs)), mp_context=multiprocessing.get_context("fork"),
-                                                initializer=die_with_parent) as pool:
-        futures = [pool.submit(_pdf_bytes, doc) for doc in docs]
+    import audit
+
+    env = dict(os.environ)
+    here = str(Path(audit.__file__).resolve().parents[1])  # so the worker imports this same copy of the tool
+    env["PYTHONPATH"] = here + (os.pathsep + env["PYTHONPATH"] if env.get("PYTHONPATH") else "")
+    with tempfile.TemporaryDirectory(prefix="valve-audit-pdf-") as tmp:
+        parts = []
+        for k, doc in enumerate(docs):
+            src = Path(tmp) / f"part{k:04d}.html"
+            src.write_text(doc, encoding="utf-8")
+            docs[k] = None   # on disk now: this process need not hold the page twice while printing
+            parts.append((src, Path(tmp) / f"part{k:04d}.pdf"))
+        todo, done, busy = list(range(len(parts)))[::-1], set(), {}
         writer = PdfWriter()
-        for future in futures:  # in order; a part is joined as soon as it is done, while later ones render
-            writer.append(PdfReader(io.BytesIO(future.result())))
-    with open(path, "wb") as fh:
-        writer.write(fh)
+        procs = [subprocess.Popen([sys.executable, "-m", "audit.report.pdf"], stdin=subprocess.PIPE,
+                                  stdout=subprocess.PIPE, text=True, env=env)
+                 for _ in range(min(workers, len(parts)))]
+        chooser = selectors.DefaultSelector()
+        try:
+            for proc in procs:
+                chooser.register(proc.stdout, selectors.EVENT_READ, proc)
+                _give(proc, todo, busy, parts, chooser)
+            while busy:
+                for key, _ in chooser.select():
+                    proc = key.data
+                    if not proc.stdout.readline():
+                        raise RuntimeError(f"a PDF worker stopped on part {busy.get(proc)} (exit {proc.wait()})")
+                    done.add(busy.pop(proc))
+                    _give(proc, todo, busy, parts, chooser)
+        finally:
+            for proc in procs:
+                if proc.stdin and not proc.stdin.closed:
+                    proc.stdin.close()
+                if proc.poll() is None and busy:
+                    proc.kill()
+                proc.wait()
+        # Joined once the workers are gone, so the joined document and the workers are not held at once.
+        for _, pdf in parts:
+            writer.append(PdfReader(io.BytesIO(pdf.read_bytes())))
+        with open(path, "wb") as fh:
+            writer.write(fh)
+
+
+def _give(proc, todo: list, busy: dict, parts: list, chooser) -> None:
+    """The next part to a free worker; with none left, the worker's input is closed so it ends."""
+    if todo:
+        k = todo.pop()
+        busy[proc] = k
+        proc.stdin.write(f"{parts[k][0]}\t{parts[k][1]}\n")
+        proc.stdin.flush()
+    else:
+        chooser.unregister(proc.stdout)
+        proc.stdin.close()
+
+
+def _worker() -> None:
+    """``python -m audit.report.pdf``: render each 'part.html<TAB>part.pdf' line of standard input, and
+    say the PDF's path on standard output when it is written."""
+    import sys
+
+    die_with_parent()
+    for line in sys.stdin:
+        src, dst = line.rstrip("\n").split("\t")
+        Path(dst).write_bytes(_pdf_bytes(Path(src).read_text(encoding="utf-8")))
+        print(dst, flush=True)
+
+
+if __name__ == "__main__":
+    _worker()

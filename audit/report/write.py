@@ -24,7 +24,9 @@ def write_reports(folder: Path, audit, meta: dict, formats: set[str], progress=N
             (folder / "report.html").write_text(render_html(context), encoding="utf-8")
         if "pdf" in formats:
             with _stage(progress, "Writing the PDF report"):
-                render_pdf(render_html(context, for_print=True), folder / "report.pdf")
+                printed = render_html(context, for_print=True)
+                del context  # its drawings are in the printed page now; freed before the printer starts
+                render_pdf(printed, folder / "report.pdf")
     if "xlsx" in formats:
         with _stage(progress, "Writing the work list"):
             write_worklist(folder / "worklist.xlsx", audit, table)
