@@ -32,7 +32,9 @@ class Options:
     area_scale: dict = field(default_factory=dict)  # {area: multiplier}, on top of flow_scale
     property_tables: bool = False    # many states (history samples): interpolate in checked tables (fluid.tables)
     summarise: bool = True           # False: case columns and finding codes only (no sentences, ranking or
-                                     # per-valve headroom), for the history's samples, read only as counts
+                                     # headroom), for the history's samples, read only as counts
+    rules: tuple[str, ...] | None = None  # codes of the rules to run (None: all); the history's samples run
+                                          # only those whose columns and codes history.csv reads
 
 
 @dataclass
@@ -294,14 +296,14 @@ def compute(ll: LineList, options: Options | None = None) -> Audit:
     ll, cases = reject_unauditable(ll, cases)
     add_sizing(cases)
     add_outlet_state(cases, ll, options)
-    add_case_headroom(cases, effective_thresholds(options.thresholds)["travel"]["high_pct"])
-    if not options.summarise:
+    if not options.summarise:  # the history's samples: counted, never ranked, so no headroom either
         from rules.base import without_sentences
 
         with without_sentences():
-            findings = apply_rules(cases, options.thresholds)
+            findings = apply_rules(cases, options.thresholds, options.rules)
         return Audit(cases, ll.valves, ll.rejected, findings, ll, options)
-    findings = apply_rules(cases, options.thresholds)
+    add_case_headroom(cases, effective_thresholds(options.thresholds)["travel"]["high_pct"])
+    findings = apply_rules(cases, options.thresholds, options.rules)
     valves = rank_valves(ll.valves, cases, findings)
     extra = add_valve_headroom(cases, valves)
     audit = Audit(cases, valves, ll.rejected, findings, ll, options)

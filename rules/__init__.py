@@ -66,8 +66,9 @@ def effective_thresholds(overrides: dict | None) -> dict[str, dict[str, float]]:
     return out
 
 
-def apply_rules(cases: pd.DataFrame, overrides: dict | None = None) -> pd.DataFrame:
-    """Run every rule in order; add their columns to ``cases``; return all findings.
+def apply_rules(cases: pd.DataFrame, overrides: dict | None = None, only: tuple[str, ...] | None = None) -> pd.DataFrame:
+    """Run every rule in order (or only the rules whose codes ``only`` names); add their columns to
+    ``cases``; return all findings.
 
     Each finding carries its ``family`` and its level from the severity table,
     moved by the valve's intent and duty (``rules.severity.adjust_for_service``).
@@ -77,6 +78,8 @@ def apply_rules(cases: pd.DataFrame, overrides: dict | None = None) -> pd.DataFr
     thresholds = effective_thresholds(overrides)
     found = []
     for rule in all_rules():
+        if only is not None and rule.code not in only:
+            continue
         result = rule.evaluate(cases, thresholds[rule.code.lower()])
         for name, values in result.columns.items():
             cases[name] = values

@@ -191,6 +191,29 @@ def test_parquet_history_reads_like_csv(tmp_path):
     assert (out_a / "history.csv").read_text() == (out_b / "history.csv").read_text()
 
 
+def test_long_parquet_history_reads_like_long_csv(tmp_path):
+    # Same records, long layout: CSV (text times, a quality string among the values) and Parquet
+    # (timestamp times, values as text) must give the same history.csv.
+    pytest.importorskip("pyarrow")
+    data = steady(30)
+    rows = [(t, name, v, unit) for name, unit in (("F1", "m3/h"), ("P1", "bar"), ("P2", "bar"), ("T1", "degC"))
+            for t, v in zip(data["time"], data[f"{name} [{unit}]"])]
+    rows[3] = (rows[3][0], "F1", "I/O Timeout", "m3/h")
+    frame = pd.DataFrame(rows, columns=["time", "signal", "value", "unit"])
+    frame.to_csv(tmp_path / "long.csv", index=False)
+    frame["time"] = pd.to_datetime(frame["time"], utc=True)
+    frame["value"] = frame["value"].astype(str)
+    frame.to_parquet(tmp_path / "long.parquet")
+    ll = tmp_path / "ll.csv"
+    ll.write_text(WATER + "\n" + VALVE.replace(",Z1", ",") + "\n", encoding="utf-8")
+    a, out_a = run(tmp_path, ll, tmp_path / "long.csv")
+    (tmp_path / "b").mkdir()
+    b, out_b = run(tmp_path / "b", ll, tmp_path / "long.parquet")
+    assert a.exit_code == b.exit_code == 0, a.output + b.output
+    assert history_row(out_a).excluded_bad_quality == 1
+    assert (out_a / "history.csv").read_text() == (out_b / "history.csv").read_text()
+
+
 # ---- errors ------------------------------------------------------------------------------------------------
 
 def test_unknown_signal_is_an_input_error_naming_it(tmp_path):
@@ -376,3 +399,20 @@ def test_standard_volume_flow_signal_against_mass_flow_cases(tmp_path):
     assert result.exit_code == 0, result.output
     row = history_row(out, "G-1")
     assert (row.excluded_not_operating, row.samples_used) == (20, 30)
+
+
+def test_history_rules_are_all_the_shares_read(monkeypatch):
+    # The samples run only HISTORY_RULES; with every rule run instead, history.csv must not change,
+    # or a share depends on a rule that was left out.
+    import audit.history.study as study
+    from audit.engine import Options, compute
+    from audit.history.study import HistorySettings, study_history
+    from audit.io.loader import load_linelist
+
+    base = compute(load_linelist(SAMPLE / "fenmoor_unit.csv"))
+    settings = HistorySettings(files=(SAMPLE / "fenmoor_history.csv", SAMPLE / "fenmoor_history_area300.csv"))
+    subset = study_history(base, settings, Options()).table
+    monkeypatch.setattr(study, "HISTORY_RULES", None)
+    every = study_history(base, settings, Options()).table
+    assert subset["samples_used"].sum() > 1000
+    pd.testing.assert_frame_equal(subset, every)

@@ -187,6 +187,29 @@ def _column(frame, name: str) -> np.ndarray:
     return frame[name].to_numpy()
 
 
+def _codes(frame, name: str) -> tuple[np.ndarray, list]:
+    """A column repeating few values (a long file's time, signal or unit) as (code per row, distinct values);
+    code -1 for a missing cell.  Through the file's dictionary, so no Python object is made per row."""
+    if hasattr(frame, "column_names"):
+        import pyarrow.compute as pc
+
+        encoded = frame.column(name).combine_chunks().dictionary_encode()
+        codes = pc.fill_null(encoded.indices, -1).to_numpy(zero_copy_only=False).astype(np.int64)
+        return codes, list(encoded.dictionary.to_pandas())
+    codes, uniques = pd.factorize(frame[name].to_numpy(dtype=object))
+    return codes.astype(np.int64), list(uniques)
+
+
+def _times(frame, name: str, tz: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """parse_times over a column, each distinct time parsed once."""
+    codes, uniques = _codes(frame, name)
+    if not len(codes):
+        return parse_times(np.zeros(0, dtype=object), tz)
+    t, ok, amb = parse_times(pd.Series(uniques), tz)   # text stays text, timestamps stay timestamps
+    # code -1 (a missing time) reads as unreadable
+    return np.r_[t, 0][codes], np.r_[ok, False][codes], np.r_[amb, False][codes]
+
+
 def _numbers(frame, name: str, rows: np.ndarray | None = None) -> np.ndarray:
     """A value column as floats: a number where the cell holds a finite number, else NaN."""
     if hasattr(frame, "column_names"):
@@ -212,25 +235,25 @@ def _part(frame, path: Path, tz: str, hist: History) -> None:
     if "time" not in lower:
         raise InputError(f"history file '{path}': no 'time' column; its columns are "
                          f"{', '.join(repr(c) for c in columns[:8])}")
-    stamps, ok, amb = parse_times(_column(frame, lower["time"]), tz)
+    stamps, ok, amb = _times(frame, lower["time"], tz)
     if "signal" in lower and "value" in lower:
-        raw_signal = pd.Series(_column(frame, lower["signal"])).astype(str).to_numpy(dtype=object)
-        codes, uniques = pd.factorize(raw_signal)
-        key_of_code = np.array([_register(hist, str(raw)) for raw in uniques], dtype=object)
-        keys = key_of_code[codes]
+        codes, uniques = _codes(frame, lower["signal"])
+        key_of_code = np.array([_register(hist, str(raw)) for raw in uniques] + [""], dtype=object)
+        keys = key_of_code[codes]   # code -1 (no signal name) is the key ''
         if "unit" in lower:   # the first unit written for a signal, unless its name brackets one
-            unit = pd.Series(_column(frame, lower["unit"])).fillna("").astype(str).str.strip()
-            given = pd.DataFrame({"k": keys, "u": unit.to_numpy(dtype=object)})
-            for key, u in given[given["u"] != ""].drop_duplicates("k").itertuples(index=False):
-                hist.unit.setdefault(key, u)
+            u_codes, u_names = _codes(frame, lower["unit"])
+            u_names = np.array([str(u).strip() for u in u_names] + [""], dtype=object)
+            pairs = pd.DataFrame({"k": codes, "u": u_codes}).drop_duplicates()
+            for k, u in zip(pairs["k"].to_numpy(), pairs["u"].to_numpy()):
+                if k >= 0 and u_names[u]:
+                    hist.unit.setdefault(key_of_code[k], u_names[u])
         _count_times(hist, keys, ok, amb)
         good = np.flatnonzero(ok)
         key_codes, key_names = pd.factorize(keys[good])   # names that differ only in case are one signal
         order = np.argsort(key_codes, kind="stable")       # stable: file order kept within a signal
         bounds = np.searchsorted(key_codes[order], np.arange(len(key_names) + 1))
         rows = {key: order[bounds[j]:bounds[j + 1]] for j, key in enumerate(key_names)}
-        values = parse_values(np.asarray(_column(frame, lower["value"])[good], dtype=object))
-        hist.parts.append(_Part(stamps[good], rows, values))
+        hist.parts.append(_Part(stamps[good], rows, _numbers(frame, lower["value"])[good]))
         return
     signals = [c for c in columns if c != lower["time"]]
     if not signals:

@@ -28,6 +28,10 @@ from audit.io.units import unit_rule
 NS_PER_HOUR = 3_600 * 10**9
 NS_PER_MONTH = int(30.44 * 24 * NS_PER_HOUR)  # docs/history.md: a month of 30.44 days
 PERCENTILES = {"hist_p05": 5, "hist_p50": 50, "hist_p95": 95}
+# The rules whose case columns and finding codes history.csv reads (flashing, cavitation level, velocity
+# and Mach codes, noise level and limit, observed travel); the others grade what the representative
+# cases show, so at every sample they would be work nobody reads.
+HISTORY_RULES = ("flashing", "cavitation", "velocity", "noise", "observed_travel")
 HISTORY_COLUMNS = (["tag", "samples_read", "samples_used"] + [f"excluded_{r}" for r in REASONS]
                    + ["duplicates_dropped", "share_choked", "share_near_choke", "share_cavitating", "share_flashing",
                       "share_travel_high", "share_travel_low", "share_velocity_over", "share_noise_over",
@@ -180,7 +184,8 @@ def _audit_chunk(ll: LineList, valve_ids: list[int], samples: list[Samples], rul
     # No what-if scaling on observed data; every sample is its own state, so properties come from tables
     # checked against the full equation (fluid.tables; within 0.1 % on density and vapour pressure).
     observed = Options(p_atm=options.p_atm, backend=options.backend, thresholds=options.thresholds,
-                       property_tables=property_tables, summarise=False)  # counts only: no sentences, no ranking
+                       property_tables=property_tables, summarise=False,  # counts only: no sentences, no ranking
+                       rules=HISTORY_RULES)
     audited = compute(chunk, observed).cases
     return audited
 
@@ -262,24 +267,7 @@ def study_history(base, settings: HistorySettings, options) -> HistoryResult:
     hist = read_history(list(settings.files), settings.tz)
     named = _named_signals(ll, hist)
     th = effective_thresholds(options.thresholds)
-    rows, built = [], []
-    for v, signals in sorted(named.items()):
-        keys = [k for k, _ in signals.values()]
-        row = {"tag": ll.valves["tag"].iat[v], "duplicates_dropped": 0,
-               "times_unread": sum(hist.bad_times.get(k, 0) for k in keys),
-               "times_ambiguous": sum(hist.dst_repeats.get(k, 0) for k in keys)}
-        samples, rule, assumed, note = _valve_samples(v, signals, ll, base.cases, hist, settings)
-        row.update(assumed=";".join(assumed), note=note)
-        if samples is not None:
-            row.update(samples_read=len(samples.time), samples_used=int(samples.used.sum()),
-                       duplicates_dropped=samples.duplicates,
-                       **{f"excluded_{r}": samples.counts[r] for r in REASONS})
-            if len(samples.time):
-                row.update(period_start=iso_utc(samples.time[:1])[0], period_end=iso_utc(samples.time[-1:])[0])
-            built.append((v, samples, rule, row))
-        rows.append(row)
-    reps, traces = [], {}
-    chunk: list = []
+    rows, reps, traces, chunk = [], [], {}, []
 
     def flush():
         if not chunk:
@@ -299,10 +287,26 @@ def study_history(base, settings: HistorySettings, options) -> HistoryResult:
                 traces[row["tag"]] = g[["time_ns", "travel_pct", "travel_observed_pct", "choke_ratio"]].copy()
         chunk.clear()
 
+    # Valve by valve: its samples are built and cleaned, then audited with a chunk of others once the
+    # chunk holds enough samples; a chunk's samples are let go when it is done, so memory is bounded by
+    # the chunk and the files' columns, not by the whole history's samples.
     size = 0
-    for item in built:
-        chunk.append(item)
-        size += int(item[1].used.sum())
+    for v, signals in sorted(named.items()):
+        keys = [k for k, _ in signals.values()]
+        row = {"tag": ll.valves["tag"].iat[v], "duplicates_dropped": 0,
+               "times_unread": sum(hist.bad_times.get(k, 0) for k in keys),
+               "times_ambiguous": sum(hist.dst_repeats.get(k, 0) for k in keys)}
+        samples, rule, assumed, note = _valve_samples(v, signals, ll, base.cases, hist, settings)
+        row.update(assumed=";".join(assumed), note=note)
+        rows.append(row)
+        if samples is None:
+            continue
+        row.update(samples_read=len(samples.time), samples_used=int(samples.used.sum()),
+                   duplicates_dropped=samples.duplicates, **{f"excluded_{r}": samples.counts[r] for r in REASONS})
+        if len(samples.time):
+            row.update(period_start=iso_utc(samples.time[:1])[0], period_end=iso_utc(samples.time[-1:])[0])
+        chunk.append((v, samples, rule, row))
+        size += row["samples_used"]
         if size >= settings.chunk_samples:
             flush()
             size = 0
