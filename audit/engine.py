@@ -300,7 +300,7 @@ def compute(ll: LineList, options: Options | None = None) -> Audit:
         from rules.base import without_sentences
 
         with without_sentences():
-            findings = apply_rules(cases, options.thresholds, options.rules)
+            findings = apply_rules(cases, options.thresholds, options.rules, graded=False)
         return Audit(cases, ll.valves, ll.rejected, findings, ll, options)
     add_case_headroom(cases, effective_thresholds(options.thresholds)["travel"]["high_pct"])
     findings = apply_rules(cases, options.thresholds, options.rules)

@@ -66,9 +66,13 @@ def effective_thresholds(overrides: dict | None) -> dict[str, dict[str, float]]:
     return out
 
 
-def apply_rules(cases: pd.DataFrame, overrides: dict | None = None, only: tuple[str, ...] | None = None) -> pd.DataFrame:
+def apply_rules(cases: pd.DataFrame, overrides: dict | None = None, only: tuple[str, ...] | None = None,
+                graded: bool = True) -> pd.DataFrame:
     """Run every rule in order (or only the rules whose codes ``only`` names); add their columns to
     ``cases``; return all findings.
+
+    graded=False (the history's samples, read only as counts): the findings as the rules wrote them,
+    without the service adjustment, the family and the per-case ``findings`` column.
 
     Each finding carries its ``family`` and its level from the severity table,
     moved by the valve's intent and duty (``rules.severity.adjust_for_service``).
@@ -84,6 +88,8 @@ def apply_rules(cases: pd.DataFrame, overrides: dict | None = None, only: tuple[
         for name, values in result.columns.items():
             cases[name] = values
         found.append(result.findings)
+    if not graded:
+        return combine(*found)
     allf = adjust_for_service(combine(*found), cases, thresholds)
     allf["family"] = [family_of(c) for c in allf["code"]]
     ordered = allf.sort_values(["case_row", "severity"], ascending=[True, False], kind="stable")

@@ -192,7 +192,7 @@ def test_worker_processes_are_asked_to_die_with_their_parent():
     # prctl(PR_SET_PDEATHSIG) in the worker initializer: checked in a forked child, which reads it back.
     if not sys.platform.startswith("linux"):
         pytest.skip("PR_SET_PDEATHSIG is Linux's")
-    code = ("import ctypes, signal; from audit.report.parallel import die_with_parent; die_with_parent(); "
+    code = ("import ctypes, signal; from audit.workers import die_with_parent; die_with_parent(); "
             "libc = ctypes.CDLL('libc.so.6'); sig = ctypes.c_int(); libc.prctl(2, ctypes.byref(sig)); "
             "print(sig.value == int(signal.SIGKILL))")
     r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)

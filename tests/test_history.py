@@ -416,3 +416,21 @@ def test_history_rules_are_all_the_shares_read(monkeypatch):
     every = study_history(base, settings, Options()).table
     assert subset["samples_used"].sum() > 1000
     pd.testing.assert_frame_equal(subset, every)
+
+
+def test_history_in_chunks_on_workers_equals_one_chunk():
+    # Chunks of a few valves on two worker processes against one chunk in this process: the same
+    # history.csv, representative cases and traces (chunking and workers bound time and memory only).
+    from audit.engine import Options, compute
+    from audit.history.study import HistorySettings, study_history
+    from audit.io.loader import load_linelist
+
+    base = compute(load_linelist(SAMPLE / "fenmoor_unit.csv"))
+    files = (SAMPLE / "fenmoor_history.csv", SAMPLE / "fenmoor_history_area300.csv")
+    one = study_history(base, HistorySettings(files=files, chunk_samples=10**9, workers=1), Options())
+    many = study_history(base, HistorySettings(files=files, chunk_samples=1500, workers=2), Options())
+    pd.testing.assert_frame_equal(one.table, many.table)
+    pd.testing.assert_frame_equal(one.cases, many.cases)
+    assert one.traces.keys() == many.traces.keys() and len(one.traces) >= 5
+    for tag in one.traces:
+        pd.testing.assert_frame_equal(one.traces[tag], many.traces[tag])

@@ -65,6 +65,11 @@ class History:
     bad_times: dict = field(default_factory=dict)  # signal key -> records with no readable time
     dst_repeats: dict = field(default_factory=dict)  # signal key -> records at a repeated local hour (no offset)
 
+    def count(self, key: str) -> int:
+        """How many readable records one signal has (before any cleaning)."""
+        return sum(len(p.columns[key]) if isinstance(p.columns[key], np.ndarray) else len(p.time) * len(p.columns[key])
+                   for p in self.parts if key in p.columns)
+
     def raw(self, key: str) -> tuple[np.ndarray, np.ndarray]:
         """(time [ns UTC], value [as written, NaN where not a finite number]) of every readable record of
         one signal, in file order."""

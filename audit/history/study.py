@@ -32,6 +32,10 @@ PERCENTILES = {"hist_p05": 5, "hist_p50": 50, "hist_p95": 95}
 # and Mach codes, noise level and limit, observed travel); the others grade what the representative
 # cases show, so at every sample they would be work nobody reads.
 HISTORY_RULES = ("flashing", "cavitation", "velocity", "noise", "observed_travel")
+VELOCITY_CODES = ("VELOCITY", "MACH")  # share_velocity_over: outlet velocity over its limit, or gas Mach
+SAMPLE_COLUMNS = ("valve", "tag", "time_ns", "flow", "flow_basis", "std_t", "std_p", "p_in", "p_out", "t_in", "travel",
+                  "choke_ratio", "travel_pct", "travel_observed_pct", "cavitation", "flashing", "noise_dba",
+                  "noise_limit_dba")
 HISTORY_COLUMNS = (["tag", "samples_read", "samples_used"] + [f"excluded_{r}" for r in REASONS]
                    + ["duplicates_dropped", "share_choked", "share_near_choke", "share_cavitating", "share_flashing",
                       "share_travel_high", "share_travel_low", "share_velocity_over", "share_noise_over",
@@ -48,7 +52,8 @@ class HistorySettings:
     tz: str = "UTC"
     hold_hours: float = 2.0
     stuck_hours: float = 24.0
-    chunk_samples: int = 100_000   # samples audited at once; bounds memory, not results
+    chunk_samples: int = 100_000   # flow records audited at once; bounds memory, not results
+    workers: int = 0               # processes auditing chunks (0: one per core); results do not depend on it
     property_tables: bool = True   # interpolate properties in checked tables where a valve has many samples
 
 
@@ -186,8 +191,16 @@ def _audit_chunk(ll: LineList, valve_ids: list[int], samples: list[Samples], rul
     observed = Options(p_atm=options.p_atm, backend=options.backend, thresholds=options.thresholds,
                        property_tables=property_tables, summarise=False,  # counts only: no sentences, no ranking
                        rules=HISTORY_RULES)
-    audited = compute(chunk, observed).cases
-    return audited
+    audit = compute(chunk, observed)
+    cases = audit.cases
+    over = np.zeros(len(cases), dtype=bool)
+    rows = audit.findings["case_row"].to_numpy(int)[np.isin(audit.findings["code"].to_numpy(dtype=object),
+                                                            VELOCITY_CODES)]
+    over[rows] = True
+    keep = [c for c in SAMPLE_COLUMNS if c in cases]
+    narrow = cases[keep].copy()   # what the shares, the trend and the representative cases read
+    narrow["velocity_over"] = over
+    return narrow
 
 
 def _shares(g: pd.DataFrame, used: int, th: dict) -> dict:
@@ -197,7 +210,6 @@ def _shares(g: pd.DataFrame, used: int, th: dict) -> dict:
     ratio = g["choke_ratio"].to_numpy(float)
     travel = g["travel_pct"].to_numpy(float)
     cav = g["cavitation"].astype(str).to_numpy() if "cavitation" in g else np.full(len(g), "")
-    codes = g["findings"].astype(str).to_numpy()
     with np.errstate(invalid="ignore"):
         out = {
             "share_choked": share(ratio >= 1.0),
@@ -207,7 +219,7 @@ def _shares(g: pd.DataFrame, used: int, th: dict) -> dict:
             "share_flashing": share(g["flashing"].to_numpy(bool)),
             "share_travel_high": share(travel > th["travel"]["high_pct"]),
             "share_travel_low": share(travel < th["travel"]["low_pct"]),
-            "share_velocity_over": share([("VELOCITY" in c.split(";")) or ("MACH" in c.split(";")) for c in codes]),
+            "share_velocity_over": share(g["velocity_over"].to_numpy(bool)),
             "share_noise_over": share(g["noise_dba"].to_numpy(float) > g["noise_limit_dba"].to_numpy(float)),
             "samples_unsized": int(np.sum(~np.isfinite(travel))),
         }
@@ -254,6 +266,78 @@ def representative(g: pd.DataFrame, v: int, trend: float, period_days: float) ->
         "hist_gap_trend": trend, "hist_period_days": period_days})
 
 
+_JOB: dict = {}   # what a chunk reads (base audit, history, settings, options, thresholds); set before workers fork
+
+
+def _study_chunk(items: list) -> list:
+    """Samples built, cleaned and audited for one chunk of valves: per valve [row, representative cases,
+    trace] (None where it has no audited sample).  Reads its inputs from ``_JOB`` so that forked workers
+    share them instead of receiving copies."""
+    base, hist, settings, options, th = _JOB["args"]
+    ll = base.linelist
+    out, built = [], []
+    for v, signals in items:
+        keys = [k for k, _ in signals.values()]
+        row = {"tag": ll.valves["tag"].iat[v], "duplicates_dropped": 0,
+               "times_unread": sum(hist.bad_times.get(k, 0) for k in keys),
+               "times_ambiguous": sum(hist.dst_repeats.get(k, 0) for k in keys)}
+        samples, rule, assumed, note = _valve_samples(v, signals, ll, base.cases, hist, settings)
+        row.update(assumed=";".join(assumed), note=note)
+        out.append([row, None, None])
+        if samples is None:
+            continue
+        row.update(samples_read=len(samples.time), samples_used=int(samples.used.sum()),
+                   duplicates_dropped=samples.duplicates, **{f"excluded_{r}": samples.counts[r] for r in REASONS})
+        if len(samples.time):
+            row.update(period_start=iso_utc(samples.time[:1])[0], period_end=iso_utc(samples.time[-1:])[0])
+        built.append((v, samples, rule, len(out) - 1))
+    if not built:
+        return out
+    audited = _audit_chunk(ll, [b[0] for b in built], [b[1] for b in built], [b[2] for b in built], options,
+                           settings.property_tables)
+    by_tag = {g["tag"].iat[0]: g for _, g in audited.groupby("valve", sort=False)} if len(audited) else {}
+    for v, _, _, k in built:
+        row = out[k][0]
+        g = by_tag.get(row["tag"])
+        if g is None or not len(g):
+            continue
+        row.update(_shares(g, row["samples_used"], th))
+        gap = g["travel_observed_pct"].to_numpy(float) - g["travel_pct"].to_numpy(float)
+        median, trend, days = travel_trend(g["time_ns"].to_numpy(np.int64), gap)
+        row.update(travel_gap_median_pct=median, travel_gap_trend_pct_per_month=trend)
+        out[k][1] = representative(g, v, trend, days)
+        out[k][2] = g[["time_ns", "travel_pct", "travel_observed_pct", "choke_ratio"]].reset_index(drop=True)
+    return out
+
+
+def _chunks(items: list, hist: History, chunk_samples: int) -> list[list]:
+    """Valves in order, cut where a chunk's flow records reach ``chunk_samples``."""
+    chunks, current, size = [], [], 0
+    for v, signals in items:
+        current.append((v, signals))
+        size += hist.count(signals["flow"][0]) if "flow" in signals else 0
+        if size >= chunk_samples:
+            chunks.append(current)
+            current, size = [], 0
+    return chunks + ([current] if current else [])
+
+
+def _run_chunks(chunks: list, workers: int) -> list:
+    """Each chunk through ``_study_chunk``, on ``workers`` forked processes where there is more than one
+    chunk and the system can fork; the results in chunk order either way, so the output does not depend
+    on the number of workers."""
+    import concurrent.futures
+    import multiprocessing
+
+    if workers < 2 or len(chunks) < 2 or "fork" not in multiprocessing.get_all_start_methods():
+        return [_study_chunk(c) for c in chunks]
+    from audit.workers import die_with_parent
+
+    with concurrent.futures.ProcessPoolExecutor(min(workers, len(chunks)), mp_context=multiprocessing.get_context("fork"),
+                                                initializer=die_with_parent) as pool:
+        return list(pool.map(_study_chunk, chunks))
+
+
 def study_history(base, settings: HistorySettings, options) -> HistoryResult:
     """Read, clean and audit the history of every valve that names signals; see the module docstring.
 
@@ -261,56 +345,27 @@ def study_history(base, settings: HistorySettings, options) -> HistoryResult:
     operating floor and the quantities a valve has no signal for).
     Raises InputError for an unreadable file, a named signal no file holds, or a history matching no valve.
     """
+    import os
+
     from rules import effective_thresholds
 
-    ll = base.linelist
     hist = read_history(list(settings.files), settings.tz)
-    named = _named_signals(ll, hist)
+    named = _named_signals(base.linelist, hist)
     th = effective_thresholds(options.thresholds)
-    rows, reps, traces, chunk = [], [], {}, []
-
-    def flush():
-        if not chunk:
-            return
-        audited = _audit_chunk(ll, [c[0] for c in chunk], [c[1] for c in chunk], [c[2] for c in chunk], options,
-                               settings.property_tables)
-        by_tag = dict(tuple(audited.groupby("tag", sort=False))) if len(audited) else {}
-        for v, samples, _, row in chunk:
-            g = by_tag.get(row["tag"], pd.DataFrame(columns=audited.columns if len(audited) else []))
-            used = row["samples_used"]
-            if len(g):
-                row.update(_shares(g, used, th))
-                gap = g["travel_observed_pct"].to_numpy(float) - g["travel_pct"].to_numpy(float)
-                median, trend, days = travel_trend(g["time_ns"].to_numpy(np.int64), gap)
-                row.update(travel_gap_median_pct=median, travel_gap_trend_pct_per_month=trend)
-                reps.append(representative(g, v, trend, days))
-                traces[row["tag"]] = g[["time_ns", "travel_pct", "travel_observed_pct", "choke_ratio"]].copy()
-        chunk.clear()
-
-    # Valve by valve: its samples are built and cleaned, then audited with a chunk of others once the
-    # chunk holds enough samples; a chunk's samples are let go when it is done, so memory is bounded by
-    # the chunk and the files' columns, not by the whole history's samples.
-    size = 0
-    for v, signals in sorted(named.items()):
-        keys = [k for k, _ in signals.values()]
-        row = {"tag": ll.valves["tag"].iat[v], "duplicates_dropped": 0,
-               "times_unread": sum(hist.bad_times.get(k, 0) for k in keys),
-               "times_ambiguous": sum(hist.dst_repeats.get(k, 0) for k in keys)}
-        samples, rule, assumed, note = _valve_samples(v, signals, ll, base.cases, hist, settings)
-        row.update(assumed=";".join(assumed), note=note)
+    # A chunk of valves at a time: its samples are built, cleaned, audited and let go, so memory is bounded
+    # by the chunk and the files' columns, not by the whole history's samples; chunks run on all cores.
+    chunks = _chunks(sorted(named.items()), hist, settings.chunk_samples)
+    _JOB["args"] = (base, hist, settings, options, th)
+    try:
+        results = _run_chunks(chunks, settings.workers or os.cpu_count() or 1)
+    finally:
+        _JOB.clear()
+    rows, reps, traces = [], [], {}
+    for row, rep, trace in (item for result in results for item in result):
         rows.append(row)
-        if samples is None:
-            continue
-        row.update(samples_read=len(samples.time), samples_used=int(samples.used.sum()),
-                   duplicates_dropped=samples.duplicates, **{f"excluded_{r}": samples.counts[r] for r in REASONS})
-        if len(samples.time):
-            row.update(period_start=iso_utc(samples.time[:1])[0], period_end=iso_utc(samples.time[-1:])[0])
-        chunk.append((v, samples, rule, row))
-        size += row["samples_used"]
-        if size >= settings.chunk_samples:
-            flush()
-            size = 0
-    flush()
+        if rep is not None:
+            reps.append(rep)
+            traces[row["tag"]] = trace
     table = pd.DataFrame(rows).reindex(columns=HISTORY_COLUMNS)
     for c in ["samples_read", "samples_used", "duplicates_dropped", "times_unread", "times_ambiguous"] + \
             [f"excluded_{r}" for r in REASONS]:

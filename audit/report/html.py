@@ -17,7 +17,7 @@ from rules import all_rules, effective_thresholds, severity
 from rules.base import Severity
 
 from audit.ranking import family_summary
-from audit.report.parallel import die_with_parent
+from audit.workers import die_with_parent
 
 SEVERITY_MEANING = {
     Severity.URGENT: "the valve cannot do its job, or people may be exposed: look now",

@@ -10,7 +10,7 @@ from pathlib import Path
 
 import numpy as np
 
-from audit.report.parallel import die_with_parent
+from audit.workers import die_with_parent
 
 
 PNG_DATA = "data:image/png;base64,"

@@ -1,4 +1,4 @@
-"""Worker processes for the report's slow parts (plots, PDF pages)."""
+"""Worker processes (the report's plots and PDF pages, the history's chunks): imports nothing of the tool."""
 from __future__ import annotations
 
 
