@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from audit.fluid import outlet, properties, tables
+from audit.fluid import outlet, outlet_tables, properties, tables
 from audit.casetable import size_arrays, sizing_arrays
 from audit.iec.characteristic import travel_percent
 from audit.studies.headroom import add_case_headroom, add_valve_headroom
@@ -235,9 +235,12 @@ def add_outlet_state(cases: pd.DataFrame, ll: LineList, options: Options) -> Non
     # liquids and gases need the (h, p) flash, which for mixtures costs a tenth of a second.
     need = ok & ~custom & (gas | flashing)
     fluids = [f if want else None for f, want in zip(fluid_objs, need)]
-    flash = outlet.isenthalpic_outlet(fluids, p2, cases["h_in"].to_numpy(float), options.backend,
-                                          t_in=cases["t_in"].to_numpy(float), gas=gas)
-    rho1, p1, t1 = (cases[c].to_numpy(float) for c in ("rho", "p_in", "t_in"))
+    h1, t1 = cases["h_in"].to_numpy(float), cases["t_in"].to_numpy(float)
+    if options.property_tables:  # many samples: gas outlets from checked tables, one per valve
+        flash = outlet_tables.tabulated_outlet(fluids, p2, h1, options.backend, t_in=t1, gas=gas, groups=v)
+    else:
+        flash = outlet.isenthalpic_outlet(fluids, p2, h1, options.backend, t_in=t1, gas=gas)
+    rho1, p1 = (cases[c].to_numpy(float) for c in ("rho", "p_in"))
     k, m, z = (cases[c].to_numpy(float) for c in ("k", "molar_mass", "z"))
     z = np.where(np.isfinite(z), z, 1.0)
     rho_custom = np.where(gas, rho1 * p2 / p1, rho1)  # also every liquid that does not flash

@@ -53,7 +53,9 @@ def build(folder: Path, valves: int, days: int, fmt: str = "csv") -> tuple[Path,
     stamps = (pd.Timestamp("2026-01-01T00:00:00Z") + pd.to_timedelta(hours, unit="h")).strftime("%Y-%m-%dT%H:%M:%SZ")
     rng = np.random.default_rng(5)
     wide = {"time": stamps}
-    for i, tag in enumerate(audit.valves["tag"]):
+    row_of = {tag: k for k, tag in enumerate(table["tag"])}  # signals are named by line-list row (some rows are refused)
+    for tag in audit.valves["tag"]:
+        i = row_of[tag]
         mine = cases[cases["tag"] == tag]
         if len(mine) < 2:
             continue

@@ -114,7 +114,7 @@ def _ideal_ratio(st: State) -> float:
     return cp0 / (cp0 - R_GAS / (st.molar_mass / 1000.0))
 
 
-def _read(st: State, phase: str, pv: float) -> tuple:
+def read_state(st: State, phase: str, pv: float) -> tuple:
     s = st.state
     sound = sound_speed_of(s)
     rho = s.rhomass()
@@ -146,14 +146,14 @@ def _inlet_state(st: State, p: float, t: float, phase_given: str, quality: float
             raise StateError(f"the inlet is two-phase at {p / 1e5:.4g} bar(a) and {t - 273.15:.4g} degC "
                              f"(vapour fraction {q:.2f}); the sizing methods need a single-phase inlet")
         phase = phase_given or ("liquid" if s.phase() == CP.iphase_liquid else "gas")
-        return _read(st, phase, pv), phase, ""
+        return read_state(st, phase, pv), phase, ""
     if not np.isfinite(t) or np.isfinite(quality):
         return _saturated_inlet(st, p, phase_given, quality)
     psat = saturation_pressure(st, t)
     if np.isnan(psat):
         phase = phase_given or "gas"  # supercritical: compressible-flow equations
         s.update(CP.PT_INPUTS, p, t)
-        return _read(st, phase, float("nan")), phase, ""
+        return read_state(st, phase, float("nan")), phase, ""
     t_sat = _saturation_temperature(st, p)
     if np.isfinite(t_sat) and abs(t - t_sat) <= SATURATION_TOLERANCE_K:
         # Exactly at saturation (within 1 mK, rounding of the two curves) counts as the liquid side.
@@ -172,7 +172,7 @@ def _inlet_state(st: State, p: float, t: float, phase_given: str, quality: float
         raise StateError(f"column 'phase' says gas, but at {p / 1e5:.4g} bar(a) and {t - 273.15:.4g} degC "
                          f"the fluid is liquid (saturation pressure {psat / 1e5:.4g} bar(a))")
     s.update(CP.PT_INPUTS, p, t)
-    return _read(st, phase, psat), phase, ""
+    return read_state(st, phase, psat), phase, ""
 
 
 def _saturation_temperature(st: State, p: float) -> float:
@@ -210,9 +210,9 @@ def _saturated_inlet(st: State, p: float, phase_given: str, quality: float) -> t
     s = st.state
     if quality == 0.0:
         s.update(CP.PQ_INPUTS, p, 0.0)
-        return _read(st, "liquid", s.p()), "liquid", "saturated liquid at p_in"
+        return read_state(st, "liquid", s.p()), "liquid", "saturated liquid at p_in"
     s.update(CP.PQ_INPUTS, p, 1.0)
-    vapour = _read(st, "gas", s.p())
+    vapour = read_state(st, "gas", s.p())
     if quality >= 1.0:
         return vapour, "gas", "saturated vapour at p_in"
     s.update(CP.PQ_INPUTS, p, quality)

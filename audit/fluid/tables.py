@@ -18,8 +18,13 @@ speed of sound and the isentropic exponent to the same bound:
   equation and is refined (twice the nodes each way) until they agree within
   half the promise, or is given up for the full equation.
 
-Mixtures, saturated or wet inlets (t_in 'sat', quality_in) and custom fluids
-always take the full equation.  Results have the layout of ``inlet_properties``.
+A gas mixture's nodes are full-equation states with the gas phase imposed,
+at least ``mixture_gas.MARGIN_K`` above its two-phase envelope (below it a
+node is not valid, so a state there takes the full flash); a mixture state
+left over from the tables takes the same imposed-phase route when it is above
+the envelope.  Saturated or wet inlets (t_in 'sat', quality_in) and custom
+fluids always take the full equation.  Results have the layout of
+``inlet_properties``.
 """
 from __future__ import annotations
 
@@ -28,6 +33,7 @@ import numpy as np
 import CoolProp.CoolProp as CP
 
 from audit.fluid.names import Fluid
+from audit.fluid.mixture_gas import gas_mixture_properties
 from audit.fluid.properties import INLET_FIELDS, empty_inlet, inlet_properties
 
 PROMISED_REL_ERROR = 1e-3     # density and vapour pressure, against the full equation
@@ -45,6 +51,13 @@ def _scatter(out: dict, idx: np.ndarray, part: dict) -> None:
         out[name][idx] = values
 
 
+def full_equation(fluid: Fluid, p: np.ndarray, t: np.ndarray, backend: str = "HEOS") -> dict[str, np.ndarray]:
+    """Full-equation states at (p [Pa], t [K]): ``inlet_properties``, or for a mixture its gas above the envelope."""
+    if fluid.is_mixture:
+        return gas_mixture_properties(fluid, p, t)
+    return inlet_properties([fluid] * p.size, p, t, np.full(p.size, "", dtype=object), backend)
+
+
 class Table:
     """Full-equation nodes of one pure fluid on a (log p, T) grid, and bilinear lookup."""
 
@@ -55,8 +68,7 @@ class Table:
         self.t = np.linspace(t_lo, t_hi, nodes)
         lp, tt = np.meshgrid(self.lp, self.t, indexing="ij")
         p_nodes, t_nodes = np.exp(lp).ravel(), tt.ravel()
-        full = inlet_properties([fluid] * p_nodes.size, p_nodes, t_nodes, np.full(p_nodes.size, "", dtype=object),
-                                backend)
+        full = full_equation(fluid, p_nodes, t_nodes, backend)
         shape = (nodes, nodes)
         self.values = {}
         for name in INLET_FIELDS:
@@ -101,7 +113,9 @@ class Table:
 
 
 def _saturation_temperature(fluid: Fluid, p: np.ndarray) -> np.ndarray:
-    """Saturation temperature [K] at each pressure, NaN at or above the critical pressure."""
+    """Saturation temperature [K] at each pressure, NaN at or above the critical pressure (and for a mixture)."""
+    if fluid.is_mixture:
+        return np.full(p.size, np.nan)  # its nodes stay MARGIN_K above the envelope instead
     name = fluid.components[0]
     pc = CP.PropsSI("pcrit", name)
     p_triple = CP.PropsSI("ptriple", name) if name != "Water" else 611.655
@@ -120,8 +134,7 @@ def _check(table: Table, p: np.ndarray, t: np.ndarray, backend: str) -> float:
     values, usable = table.lookup(p, t)
     if not usable.any():
         return 0.0
-    full = inlet_properties([table.fluid] * int(usable.sum()), p[usable], t[usable],
-                            np.full(int(usable.sum()), "", dtype=object), backend)
+    full = full_equation(table.fluid, p[usable], t[usable], backend)
     worst = 0.0
     for name in CHECKED:
         ref, got = full[name], values[name][usable]
@@ -156,9 +169,10 @@ def tabulated_inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.
 
     Units and layout as ``inlet_properties``.  groups: a label per state (the valve): one table per
     fluid and label, over the small rectangle that one valve visits (a table over all of a site's
-    water services would need many more nodes).  Validity: pure fluids, single-phase states at least
-    NEAR_SATURATION_K from saturation, inside the rectangle of the states given; density and vapour
-    pressure within PROMISED_REL_ERROR of the full equation (tests/test_property_tables.py).
+    water services would need many more nodes).  Validity: single-phase states of pure fluids at
+    least NEAR_SATURATION_K from saturation, and gas mixtures at least mixture_gas.MARGIN_K above
+    their envelope, inside the rectangle of the states given; density and vapour pressure within
+    PROMISED_REL_ERROR of the full equation (tests/test_property_tables.py).
     """
     n = len(fluids)
     p, t = np.asarray(p, float), np.asarray(t, float)
@@ -169,7 +183,7 @@ def tabulated_inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.
     label = np.zeros(n, dtype=np.int64) if groups is None else np.asarray(groups)
     members_of: dict[tuple, list[int]] = {}
     for k, f in enumerate(fluids):
-        if f is not None and len(f.components) == 1 and simple[k]:
+        if f is not None and simple[k]:
             members_of.setdefault((f, label[k]), []).append(k)
     for (fluid, _), members in members_of.items():
         idx = np.asarray(members)
@@ -183,9 +197,24 @@ def tabulated_inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.
         usable &= (given == "") | (given == values["phase"])  # a row that names the other phase: full equation
         _scatter(out, idx[usable], {k: v[usable] for k, v in values.items()})
         full_needed[idx[usable]] = False
+    _gas_mixtures_above_envelope(fluids, p, t, phase_given, simple, full_needed, out)
     rest = np.flatnonzero(full_needed)
     if rest.size:
         part = inlet_properties([fluids[k] for k in rest], p[rest], t[rest], np.asarray(phase_given, dtype=object)[rest],
                                 backend, quality[rest])
         _scatter(out, rest, part)
     return out
+
+
+def _gas_mixtures_above_envelope(fluids, p, t, phase_given, simple, full_needed, out) -> None:
+    """Mixture states no table answered, above their envelope: the imposed-gas route (same states, 500x cheaper)."""
+    given = np.asarray(phase_given, dtype=object)
+    for fluid in {fluids[k] for k in np.flatnonzero(full_needed) if fluids[k] is not None and fluids[k].is_mixture}:
+        idx = np.flatnonzero(full_needed & simple & ((given == "") | (given == "gas"))
+                             & np.array([f == fluid for f in fluids], dtype=bool))
+        if idx.size == 0:
+            continue
+        part = gas_mixture_properties(fluid, p[idx], t[idx])
+        good = part["error"] == ""
+        _scatter(out, idx[good], {k: v[good] for k, v in part.items()})
+        full_needed[idx[good]] = False
