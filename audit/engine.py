@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from audit.fluid import outlet, outlet_tables, properties, tables
+from audit.fluid import mixture_gas, outlet, outlet_tables, properties, tables
 from audit.casetable import size_arrays, sizing_arrays
 from audit.iec.characteristic import travel_percent
 from audit.studies.headroom import add_case_headroom, add_valve_headroom
@@ -86,7 +86,7 @@ def add_properties(cases: pd.DataFrame, ll: LineList, options: Options) -> None:
     if options.property_tables:  # one table per fluid and valve: the range one valve visits is small
         props = tables.tabulated_inlet_properties(fluids, p1, t1, phase_given, options.backend, quality, groups=v)
     else:
-        props = properties.inlet_properties(fluids, p1, t1, phase_given, options.backend, quality=quality)
+        props = mixture_gas.full_equation_inlet(fluids, p1, t1, phase_given, options.backend, quality=quality)
     custom = cases["custom"].to_numpy(bool)
     # The temperature the properties were taken at: the given one, or the saturation temperature ('sat',
     # quality_in, or a state within the saturation tolerance).

@@ -434,3 +434,24 @@ def test_history_in_chunks_on_workers_equals_one_chunk():
     assert one.traces.keys() == many.traces.keys() and len(one.traces) >= 5
     for tag in one.traces:
         pd.testing.assert_frame_equal(one.traces[tag], many.traces[tag])
+
+
+def test_trace_keeps_every_nth_sample_as_the_plot_draws_it(monkeypatch):
+    # The study keeps for the report's plot only the samples the plot draws (every n-th), so a year
+    # of history is not held for it; the plot of the thinned trace is the plot of the whole one.
+    import audit.history.study as study
+    from audit.engine import Options, compute
+    from audit.history.study import HistorySettings, study_history
+    from audit.io.loader import load_linelist
+
+    base = compute(load_linelist(SAMPLE / "fenmoor_unit.csv"))
+    files = (SAMPLE / "fenmoor_history.csv", SAMPLE / "fenmoor_history_area300.csv")
+    whole = study_history(base, HistorySettings(files=files, workers=1), Options())
+    monkeypatch.setattr(study, "TRACE_POINTS", 100)
+    thin = study_history(base, HistorySettings(files=files, workers=1), Options())
+    tag = max(whole.traces, key=lambda k: len(whole.traces[k]))
+    n = len(whole.traces[tag])
+    assert n >= 300                                   # a month of hourly samples, thinned by 3 or more
+    expected = whole.traces[tag].iloc[::n // 100].reset_index(drop=True)
+    pd.testing.assert_frame_equal(thin.traces[tag], expected)
+    assert len(expected) // 100 == 1                  # the plot (MAX_POINTS per series) thins it no further

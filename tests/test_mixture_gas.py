@@ -6,7 +6,7 @@ phase, so the states must agree to rounding (1e-12 relative: both solve the same
 """
 import numpy as np
 
-from audit.fluid.mixture_gas import MARGIN_K, cricondentherm, gas_mixture_properties
+from audit.fluid.mixture_gas import MARGIN_K, cricondentherm, full_equation_inlet, gas_mixture_properties
 from audit.fluid.properties import INLET_FIELDS, inlet_properties, resolve_fluid
 
 NATURAL_GAS = "Methane[0.92]&Ethane[0.06]&Propane[0.02]"
@@ -37,3 +37,27 @@ def test_gas_mixture_properties_refuse_states_near_the_envelope():
     out = gas_mixture_properties(fluid, np.full(2, 40e5), t)
     assert out["error"][0] != "" and np.isnan(out["rho"][0])
     assert out["error"][1] == "" and out["rho"][1] > 0
+
+
+def test_full_equation_inlet_equals_inlet_properties_case_by_case():
+    """The line list's route: mixtures above the envelope imposed-gas, everything else as before."""
+    gas, _ = resolve_fluid(NATURAL_GAS)
+    water, _ = resolve_fluid("Water")
+    t_limit = cricondentherm(gas) + MARGIN_K
+    fluids = [gas, gas, gas, water, None, gas]
+    p = np.array([30e5, 30e5, 30e5, 10e5, 10e5, 50e5])
+    # above the limit; 2 K below it (plain flash); named 'liquid' (plain flash, which refuses or
+    # follows the row); liquid water; a custom fluid (skipped); above, at higher pressure
+    t = np.array([300.0, t_limit - 2.0, 300.0, 330.0, 330.0, 280.0])
+    given = np.array(["", "", "liquid", "", "", "gas"], dtype=object)
+    routed = full_equation_inlet(fluids, p, t, given)
+    plain = inlet_properties(fluids, p, t, given)
+    assert list(routed["error"]) == list(plain["error"])
+    assert list(routed["phase"]) == list(plain["phase"])
+    assert list(routed["note"]) == list(plain["note"])
+    for name in INLET_FIELDS:
+        a, b = routed[name], plain[name]
+        assert np.array_equal(np.isnan(a), np.isnan(b)), name
+        ok = np.isfinite(b)
+        assert np.allclose(a[ok], b[ok], rtol=1e-12, atol=0.0), name
+    assert np.isnan(routed["rho"][4])  # the custom fluid is the engine's, not CoolProp's

@@ -11,7 +11,8 @@ import pytest
 import CoolProp.CoolProp as CP
 
 from audit.fluid.properties import inlet_properties, resolve_fluid
-from audit.fluid.tables import NEAR_SATURATION_K, PROMISED_REL_ERROR, build_table, tabulated_inlet_properties
+from audit.fluid.tables import (NEAR_SATURATION_K, PROMISED_REL_ERROR, build_table, state_groups,
+                               tabulated_inlet_properties)
 
 N = 3000
 
@@ -104,3 +105,18 @@ def test_tabulated_inlet_properties_gas_mixture_within_promise():
     assert rel(tab["rho"][pick], full["rho"]).max() < PROMISED_REL_ERROR
     assert rel(tab["sound_speed"][pick], full["sound_speed"]).max() < PROMISED_REL_ERROR
     assert (tab["phase"][pick] == "gas").all() and (full["phase"] == "gas").all()
+
+
+def test_state_groups_by_fluid_and_label_in_first_seen_order():
+    """The grouping the tables use (plain bookkeeping, checked against a dictionary built by hand)."""
+    water, _ = resolve_fluid("Water")
+    nitrogen, _ = resolve_fluid("Nitrogen")
+    fluids = [water, nitrogen, None, water, water, nitrogen, water]
+    label = np.array([1, 1, 1, 2, 1, 1, 2])
+    mask = np.array([True, True, True, True, True, False, True])
+    got = {(id(f), int(label[g[0]])): g.tolist() for f, g in state_groups(fluids, label, mask)}
+    expected: dict = {}
+    for k, f in enumerate(fluids):
+        if f is not None and mask[k]:
+            expected.setdefault((id(f), int(label[k])), []).append(k)
+    assert got == expected == {(id(water), 1): [0, 4], (id(nitrogen), 1): [1], (id(water), 2): [3, 6]}

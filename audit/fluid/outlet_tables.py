@@ -27,7 +27,7 @@ import numpy as np
 from audit.fluid.names import Fluid
 from audit.fluid.outlet import isenthalpic_outlet
 from audit.fluid.tables import (CHECK_REL_ERROR, MAX_REFINE, MIN_STATES, NEAR_SATURATION_K, START_NODES, Table,
-                                full_equation)
+                                full_equation, state_groups)
 
 T_CHECK_K = 0.05        # outlet temperature from the table against the full equation, at the check points
 PROBES = 12             # full outlet calculations that find the temperature range a valve's outlet visits
@@ -136,14 +136,9 @@ def tabulated_outlet(fluids: list[Fluid | None], p_out: np.ndarray, h_in: np.nda
     label = np.zeros(n, dtype=np.int64) if groups is None else np.asarray(groups)
     t_guess = np.full(n, np.nan) if t_in is None else np.asarray(t_in, float)
     simple = gas & np.isfinite(t_guess) & np.isfinite(p_out) & np.isfinite(h_in) & (p_out > 0)
-    members_of: dict[tuple, list[int]] = {}
-    for k, f in enumerate(fluids):
-        if f is not None and simple[k]:
-            members_of.setdefault((f, label[k]), []).append(k)
     found = {name: np.full(n, np.nan) for name in OUTLET_FIELDS}
     answered = np.zeros(n, dtype=bool)
-    for (fluid, _), members in members_of.items():
-        idx = np.asarray(members)
+    for fluid, idx in state_groups(fluids, label, simple):
         if idx.size < min_states:
             continue
         table = build_outlet_table(fluid, p_out[idx], h_in[idx], t_guess[idx], backend)
@@ -153,7 +148,7 @@ def tabulated_outlet(fluids: list[Fluid | None], p_out: np.ndarray, h_in: np.nda
         for name in OUTLET_FIELDS:
             found[name][idx[usable]] = values[name][usable]
         answered[idx[usable]] = True
-    rest = [None if answered[k] else f for k, f in enumerate(fluids)]
+    rest = [None if a else f for a, f in zip(answered.tolist(), fluids)]
     out = isenthalpic_outlet(rest, p_out, h_in, backend, t_in=t_in, gas=gas)
     for name in OUTLET_FIELDS:
         out[name] = np.where(answered, found[name], out[name])

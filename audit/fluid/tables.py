@@ -33,17 +33,37 @@ import numpy as np
 import CoolProp.CoolProp as CP
 
 from audit.fluid.names import Fluid
-from audit.fluid.mixture_gas import gas_mixture_properties
+from audit.fluid.mixture_gas import full_equation_inlet, gas_mixture_properties
 from audit.fluid.properties import INLET_FIELDS, empty_inlet, inlet_properties
 
 PROMISED_REL_ERROR = 1e-3     # density and vapour pressure, against the full equation
 CHECK_REL_ERROR = 5e-4        # what a table must show on its own check points to be used
 NEAR_SATURATION_K = 3.0       # closer than this to saturation: the full equation
-MIN_STATES = 2000             # fewer states (a table costs some 700 full-equation states) take the full equation
-START_NODES = 24              # per axis; refined up to START_NODES * 2**MAX_REFINE
-MAX_REFINE = 2
+MIN_STATES = 2000             # fewer states (a table costs 200 to 800 full-equation states) take the full equation
+START_NODES = 12              # per axis; refined up to START_NODES * 2**MAX_REFINE
+MAX_REFINE = 3
 LOG_FIELDS = ("rho", "pv", "mu")  # interpolated as logarithms (near-exponential in T, or linear in p)
 CHECKED = ("rho", "pv", "mu", "sound_speed", "k")  # what the self-check compares (sizing and noise read them)
+
+
+def state_groups(fluids: list[Fluid | None], label: np.ndarray, mask: np.ndarray) -> list[tuple[Fluid, np.ndarray]]:
+    """The states in ``mask`` grouped by fluid and label: [(fluid, indices in ascending order)].
+
+    Vectorised (a history holds millions of states): fluids are told apart by identity, as the
+    engine hands every case of a valve the same fluid object; equal fluids held in distinct
+    objects only make more, smaller groups.  None (a custom fluid) is never grouped.
+    """
+    n = len(fluids)
+    ids = np.fromiter(map(id, fluids), dtype=np.int64, count=n)
+    keep = np.flatnonzero(np.asarray(mask, bool) & (ids != id(None)))
+    if keep.size == 0:
+        return []
+    codes = np.unique(np.asarray(label)[keep], return_inverse=True)[1].ravel()
+    _, inverse = np.unique(np.stack([ids[keep], codes]), axis=1, return_inverse=True)
+    inverse = inverse.ravel()
+    order = np.argsort(inverse, kind="stable")
+    groups = np.split(keep[order], np.flatnonzero(np.diff(inverse[order])) + 1)
+    return [(fluids[g[0]], g) for g in groups]
 
 
 def _scatter(out: dict, idx: np.ndarray, part: dict) -> None:
@@ -181,12 +201,7 @@ def tabulated_inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.
     full_needed = np.ones(n, dtype=bool)
     simple = np.isfinite(p) & np.isfinite(t) & ~np.isfinite(quality) & (p > 0)
     label = np.zeros(n, dtype=np.int64) if groups is None else np.asarray(groups)
-    members_of: dict[tuple, list[int]] = {}
-    for k, f in enumerate(fluids):
-        if f is not None and simple[k]:
-            members_of.setdefault((f, label[k]), []).append(k)
-    for (fluid, _), members in members_of.items():
-        idx = np.asarray(members)
+    for fluid, idx in state_groups(fluids, label, simple):
         if idx.size < min_states:
             continue
         table = build_table(fluid, p[idx], t[idx], backend)
@@ -197,24 +212,9 @@ def tabulated_inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.
         usable &= (given == "") | (given == values["phase"])  # a row that names the other phase: full equation
         _scatter(out, idx[usable], {k: v[usable] for k, v in values.items()})
         full_needed[idx[usable]] = False
-    _gas_mixtures_above_envelope(fluids, p, t, phase_given, simple, full_needed, out)
     rest = np.flatnonzero(full_needed)
     if rest.size:
-        part = inlet_properties([fluids[k] for k in rest], p[rest], t[rest], np.asarray(phase_given, dtype=object)[rest],
-                                backend, quality[rest])
+        part = full_equation_inlet([fluids[k] for k in rest], p[rest], t[rest],
+                                   np.asarray(phase_given, dtype=object)[rest], backend, quality[rest])
         _scatter(out, rest, part)
     return out
-
-
-def _gas_mixtures_above_envelope(fluids, p, t, phase_given, simple, full_needed, out) -> None:
-    """Mixture states no table answered, above their envelope: the imposed-gas route (same states, 500x cheaper)."""
-    given = np.asarray(phase_given, dtype=object)
-    for fluid in {fluids[k] for k in np.flatnonzero(full_needed) if fluids[k] is not None and fluids[k].is_mixture}:
-        idx = np.flatnonzero(full_needed & simple & ((given == "") | (given == "gas"))
-                             & np.array([f == fluid for f in fluids], dtype=bool))
-        if idx.size == 0:
-            continue
-        part = gas_mixture_properties(fluid, p[idx], t[idx])
-        good = part["error"] == ""
-        _scatter(out, idx[good], {k: v[good] for k, v in part.items()})
-        full_needed[idx[good]] = False

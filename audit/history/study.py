@@ -52,7 +52,7 @@ class HistorySettings:
     tz: str = "UTC"
     hold_hours: float = 2.0
     stuck_hours: float = 24.0
-    chunk_samples: int = 100_000   # flow records audited at once; bounds memory, not results
+    chunk_samples: int = 50_000   # flow records audited at once; bounds memory, not results
     workers: int = 0               # processes auditing chunks (0: one per core); results do not depend on it
     property_tables: bool = True   # interpolate properties in checked tables where a valve has many samples
 
@@ -61,7 +61,7 @@ class HistorySettings:
 class HistoryResult:
     table: pd.DataFrame                  # history.csv
     cases: pd.DataFrame                  # representative cases, in the loader's case layout (SI)
-    traces: dict = field(default_factory=dict)   # tag -> used samples over time, for the report's plots
+    traces: dict = field(default_factory=dict)   # tag -> used samples over time (every n-th), for the plots
 
 
 def _unit_for(quantity: str, file_unit: str, cell_unit: str, ll: LineList, phase: str) -> str:
@@ -266,6 +266,7 @@ def representative(g: pd.DataFrame, v: int, trend: float, period_days: float) ->
         "hist_gap_trend": trend, "hist_period_days": period_days})
 
 
+TRACE_POINTS = 2_000  # samples kept per valve for the report's plot over time (every n-th sample)
 _JOB: dict = {}   # what a chunk reads (base audit, history, settings, options, thresholds); set before workers fork
 
 
@@ -306,7 +307,9 @@ def _study_chunk(items: list) -> list:
         median, trend, days = travel_trend(g["time_ns"].to_numpy(np.int64), gap)
         row.update(travel_gap_median_pct=median, travel_gap_trend_pct_per_month=trend)
         out[k][1] = representative(g, v, trend, days)
-        out[k][2] = g[["time_ns", "travel_pct", "travel_observed_pct", "choke_ratio"]].reset_index(drop=True)
+        trace = g[["time_ns", "travel_pct", "travel_observed_pct", "choke_ratio"]]
+        # Thinned here as the plot thins it (every n-th sample), so a year of samples is not kept for it.
+        out[k][2] = trace.iloc[::max(1, len(trace) // TRACE_POINTS)].reset_index(drop=True)
     return out
 
 

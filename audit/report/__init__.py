@@ -4,6 +4,6 @@
 charts), ``pdf`` (printing the page), ``worklist`` (worklist.xlsx), and the
 ``templates`` folder.
 
-May import: ``audit.iec`` (plots), ``audit.io.outputs``, ``audit.ranking`` and
-``rules``.  Nothing imports this package except the pipeline.
+May import: ``audit.iec`` (plots), ``audit.io.outputs``, ``audit.ranking``,
+``audit.history`` (the history section) and ``rules``.  Nothing imports this package except the pipeline.
 """

@@ -9,11 +9,13 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from audit.history.study import TRACE_POINTS
+
 LIMITS = [  # history.csv column, heading
     ("share_choked", "choked"), ("share_near_choke", "near choke"), ("share_cavitating", "cavitating"),
     ("share_flashing", "flashing"), ("share_travel_high", "travel high"), ("share_travel_low", "travel low"),
     ("share_velocity_over", "too fast"), ("share_noise_over", "too loud")]
-MAX_POINTS = 2_000  # per plotted series: a year of hourly samples is thinned to this (every n-th sample)
+MAX_POINTS = TRACE_POINTS  # per plotted series: the study keeps every n-th sample, about this many
 
 
 def _pct(x) -> str:
