@@ -63,7 +63,8 @@ def case_table(ll: LineList, options: Options) -> pd.DataFrame:
     v = cases["valve"].to_numpy(int)
     vals = ll.valves
     for col in VALVE_FIELDS:
-        cases[col if col != "sound_speed" else "sound_speed_given"] = vals[col].to_numpy()[v]
+        # take on the column's own array: text stays in pandas' string storage (no Python object per case)
+        cases[col if col != "sound_speed" else "sound_speed_given"] = vals[col].array.take(v)
     applies = np.isin(cases["case"], options.scale_cases) if options.scale_cases else np.ones(len(cases), bool)
     scale = np.where(applies, options.flow_scale, 1.0)
     if options.area_scale:

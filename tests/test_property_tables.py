@@ -107,7 +107,7 @@ def test_tabulated_inlet_properties_gas_mixture_within_promise():
     assert (tab["phase"][pick] == "gas").all() and (full["phase"] == "gas").all()
 
 
-def test_state_groups_by_fluid_and_label_in_first_seen_order():
+def test_state_groups_by_fluid_and_label():
     """The grouping the tables use (plain bookkeeping, checked against a dictionary built by hand)."""
     water, _ = resolve_fluid("Water")
     nitrogen, _ = resolve_fluid("Nitrogen")

@@ -29,6 +29,7 @@ fluids always take the full equation.  Results have the layout of
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 
 import CoolProp.CoolProp as CP
 
@@ -58,11 +59,11 @@ def state_groups(fluids: list[Fluid | None], label: np.ndarray, mask: np.ndarray
     keep = np.flatnonzero(np.asarray(mask, bool) & (ids != id(None)))
     if keep.size == 0:
         return []
-    codes = np.unique(np.asarray(label)[keep], return_inverse=True)[1].ravel()
-    _, inverse = np.unique(np.stack([ids[keep], codes]), axis=1, return_inverse=True)
-    inverse = inverse.ravel()
-    order = np.argsort(inverse, kind="stable")
-    groups = np.split(keep[order], np.flatnonzero(np.diff(inverse[order])) + 1)
+    fluid_code, _ = pd.factorize(ids[keep])          # hashing, not sorting: few distinct values
+    label_code, labels = pd.factorize(np.asarray(label)[keep])
+    key = fluid_code.astype(np.int64) * max(len(labels), 1) + label_code
+    order = np.argsort(key, kind="stable")           # ascending indices within each group
+    groups = np.split(keep[order], np.flatnonzero(np.diff(key[order])) + 1)
     return [(fluids[g[0]], g) for g in groups]
 
 
