@@ -103,12 +103,16 @@ def full_equation_inlet(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray
     out = empty_inlet(n)
     need = np.ones(n, dtype=bool)
     simple = np.isfinite(p) & np.isfinite(t) & ~np.isfinite(quality) & (p > 0) & ((given == "") | (given == "gas"))
-    mixtures = {f for f in fluids if f is not None and f.is_mixture}
-    for fluid in mixtures:
-        idx = np.flatnonzero(simple & np.fromiter((f == fluid for f in fluids), dtype=bool, count=n))
+    ids = np.fromiter(map(id, fluids), dtype=np.int64, count=n)   # the engine shares one object per fluid
+    mixtures = {id(f): f for f in fluids if f is not None and f.is_mixture}
+    for key, fluid in mixtures.items():
+        idx = np.flatnonzero(simple & (ids == key))
         if idx.size == 0:
             continue
-        part = gas_mixture_properties(fluid, p[idx], t[idx])
+        # each distinct state once (a site's fuel gas repeats a few), spread back to its cases
+        states, back = np.unique(np.stack([p[idx], t[idx]], axis=1), axis=0, return_inverse=True)
+        once = gas_mixture_properties(fluid, states[:, 0], states[:, 1])
+        part = {name: values[back.ravel()] for name, values in once.items()}
         good = part["error"] == ""
         _scatter(out, idx[good], {k: v[good] for k, v in part.items()})
         need[idx[good]] = False
