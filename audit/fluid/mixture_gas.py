@@ -23,7 +23,7 @@ import CoolProp.CoolProp as CP
 from CoolProp import AbstractState
 
 from audit.fluid.names import Fluid
-from audit.fluid.properties import INLET_FIELDS, empty_inlet, inlet_properties, read_state, state_for
+from audit.fluid.properties import INLET_FIELDS, empty_inlet, inlet_properties, place, read_state, state_for
 
 MARGIN_K = 10.0  # above the traced cricondentherm: room for the envelope's numerical tracing
 
@@ -81,10 +81,6 @@ def gas_mixture_properties(fluid: Fluid, p: np.ndarray, t: np.ndarray) -> dict[s
     return out
 
 
-def _scatter(out: dict, idx: np.ndarray, part: dict) -> None:
-    for name, values in part.items():
-        out[name][idx] = values
-
 
 def full_equation_inlet(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray, phase_given: np.ndarray,
                         backend: str = "HEOS", quality: np.ndarray | None = None) -> dict[str, np.ndarray]:
@@ -114,10 +110,10 @@ def full_equation_inlet(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray
         once = gas_mixture_properties(fluid, states[:, 0], states[:, 1])
         part = {name: values[back.ravel()] for name, values in once.items()}
         good = part["error"] == ""
-        _scatter(out, idx[good], {k: v[good] for k, v in part.items()})
+        place(out, idx[good], {k: v[good] for k, v in part.items()})
         need[idx[good]] = False
     rest = np.flatnonzero(need)
     if rest.size:
-        _scatter(out, rest, inlet_properties([fluids[k] for k in rest], p[rest], t[rest], given[rest], backend,
+        place(out, rest, inlet_properties([fluids[k] for k in rest], p[rest], t[rest], given[rest], backend,
                                              quality[rest]))
     return out

@@ -245,6 +245,12 @@ def empty_inlet(n: int) -> dict[str, np.ndarray]:
     return out
 
 
+def place(out: dict[str, np.ndarray], idx: np.ndarray, part: dict[str, np.ndarray]) -> None:
+    """Write ``part`` (fields in ``empty_inlet``'s layout, one value per index) into ``out`` at ``idx``."""
+    for name, values in part.items():
+        out[name][idx] = values
+
+
 def inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray,
                      phase_given: np.ndarray, backend: str = "HEOS",
                      quality: np.ndarray | None = None) -> dict[str, np.ndarray]:

@@ -35,7 +35,7 @@ import CoolProp.CoolProp as CP
 
 from audit.fluid.names import Fluid
 from audit.fluid.mixture_gas import full_equation_inlet, gas_mixture_properties
-from audit.fluid.properties import INLET_FIELDS, empty_inlet, inlet_properties
+from audit.fluid.properties import INLET_FIELDS, empty_inlet, inlet_properties, place
 
 PROMISED_REL_ERROR = 1e-3     # density and vapour pressure, against the full equation
 CHECK_REL_ERROR = 5e-4        # what a table must show on its own check points to be used
@@ -66,10 +66,6 @@ def state_groups(fluids: list[Fluid | None], label: np.ndarray, mask: np.ndarray
     groups = np.split(keep[order], np.flatnonzero(np.diff(key[order])) + 1)
     return [(fluids[g[0]], g) for g in groups]
 
-
-def _scatter(out: dict, idx: np.ndarray, part: dict) -> None:
-    for name, values in part.items():
-        out[name][idx] = values
 
 
 def full_equation(fluid: Fluid, p: np.ndarray, t: np.ndarray, backend: str = "HEOS") -> dict[str, np.ndarray]:
@@ -211,11 +207,11 @@ def tabulated_inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.
         values, usable = table.lookup(p[idx], t[idx])
         given = np.asarray(phase_given, dtype=object)[idx]
         usable &= (given == "") | (given == values["phase"])  # a row that names the other phase: full equation
-        _scatter(out, idx[usable], {k: v[usable] for k, v in values.items()})
+        place(out, idx[usable], {k: v[usable] for k, v in values.items()})
         full_needed[idx[usable]] = False
     rest = np.flatnonzero(full_needed)
     if rest.size:
         part = full_equation_inlet([fluids[k] for k in rest], p[rest], t[rest],
                                    np.asarray(phase_given, dtype=object)[rest], backend, quality[rest])
-        _scatter(out, rest, part)
+        place(out, rest, part)
     return out
