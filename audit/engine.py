@@ -7,6 +7,7 @@ its row with a ``case_error`` and blank numbers; it never stops the run.
 """
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -17,8 +18,13 @@ from audit.casetable import size_arrays, sizing_arrays
 from audit.iec.characteristic import travel_percent
 from audit.studies.headroom import add_case_headroom, add_valve_headroom
 from audit.io.loader import LineList
+from audit.workers import in_parts
 
 R_GAS = properties.R_GAS
+# The line list's CoolProp calls (one state a case) run on every core in contiguous parts of at least
+# this many cases (a part costs a process fork, some 20 ms); each state is computed on its own, so the
+# results do not depend on the parts (tests/test_engine_parts.py).
+PART_MIN_STATES = 10_000
 
 
 @dataclass
@@ -87,7 +93,9 @@ def add_properties(cases: pd.DataFrame, ll: LineList, options: Options) -> None:
     if options.property_tables:  # one table per fluid and valve: the range one valve visits is small
         props = tables.tabulated_inlet_properties(fluids, p1, t1, phase_given, options.backend, quality, groups=v)
     else:
-        props = mixture_gas.full_equation_inlet(fluids, p1, t1, phase_given, options.backend, quality=quality)
+        props = in_parts(lambda a, b: mixture_gas.full_equation_inlet(fluids[a:b], p1[a:b], t1[a:b], phase_given[a:b],
+                                                                     options.backend, quality=quality[a:b]),
+                         len(fluids), os.cpu_count() or 1, PART_MIN_STATES)
     custom = cases["custom"].to_numpy(bool)
     # The temperature the properties were taken at: the given one, or the saturation temperature ('sat',
     # quality_in, or a state within the saturation tolerance).
@@ -240,7 +248,9 @@ def add_outlet_state(cases: pd.DataFrame, ll: LineList, options: Options) -> Non
     if options.property_tables:  # many samples: gas outlets from checked tables, one per valve
         flash = outlet_tables.tabulated_outlet(fluids, p2, h1, options.backend, t_in=t1, gas=gas, groups=v)
     else:
-        flash = outlet.isenthalpic_outlet(fluids, p2, h1, options.backend, t_in=t1, gas=gas)
+        flash = in_parts(lambda a, b: outlet.isenthalpic_outlet(fluids[a:b], p2[a:b], h1[a:b], options.backend,
+                                                                t_in=t1[a:b], gas=gas[a:b]),
+                         len(fluids), os.cpu_count() or 1, PART_MIN_STATES)
     rho1, p1 = (cases[c].to_numpy(float) for c in ("rho", "p_in"))
     k, m, z = (cases[c].to_numpy(float) for c in ("k", "molar_mass", "z"))
     z = np.where(np.isfinite(z), z, 1.0)

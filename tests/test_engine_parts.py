@@ -1,0 +1,45 @@
+"""The line list's CoolProp calls in parts on worker processes give the audit of one process.
+
+Source: the audit itself in one process (each state is computed on its own, so cutting the cases in
+parts must not change a single value); the sample line list holds water, steam, hydrocarbons, gas
+mixtures and flashing and custom-fluid rows.
+"""
+import os
+import pathlib
+
+import numpy as np
+import pandas as pd
+
+import audit.engine as engine
+from audit.engine import Options, compute
+from audit.io.loader import load_linelist
+from audit.workers import in_parts
+
+SAMPLE = pathlib.Path(__file__).resolve().parents[1] / "sample_linelist" / "fenmoor_unit.csv"
+
+
+def test_in_parts_joins_the_parts_in_order_from_other_processes():
+    out = in_parts(lambda a, b: {"i": np.arange(a, b), "pid": np.full(b - a, os.getpid())}, 100, 2, 10)
+    assert np.array_equal(out["i"], np.arange(100))
+    pids = set(out["pid"].tolist())
+    assert os.getpid() not in pids and 1 <= len(pids) <= 2   # worker processes did the work, not this one
+
+
+def test_in_parts_runs_here_when_parts_would_be_small():
+    out = in_parts(lambda a, b: {"pid": np.full(b - a, os.getpid())}, 100, 2, 60)
+    assert set(out["pid"].tolist()) == {os.getpid()}
+
+
+def test_compute_in_parts_equals_one_process(monkeypatch):
+    ll = load_linelist(SAMPLE)
+    one = compute(ll, Options())
+    monkeypatch.setattr(engine, "PART_MIN_STATES", 20)
+    monkeypatch.setattr(engine.os, "cpu_count", lambda: 2)
+    calls = []
+    real = engine.in_parts
+    monkeypatch.setattr(engine, "in_parts", lambda f, n, parts, m: calls.append((n, parts, m)) or real(f, n, parts, m))
+    parts = compute(load_linelist(SAMPLE), Options())
+    assert calls and all(n >= 2 * m for n, _, m in calls)   # both CoolProp stages really ran in parts
+    pd.testing.assert_frame_equal(one.cases, parts.cases)
+    pd.testing.assert_frame_equal(one.valves, parts.valves)
+    pd.testing.assert_frame_equal(one.findings, parts.findings)
