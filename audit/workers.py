@@ -1,5 +1,5 @@
 """Worker processes (the report's plots and PDF pages, the history's chunks, the line list's property
-calls): imports nothing of the tool."""
+calls, long CSV files): imports nothing of the tool."""
 from __future__ import annotations
 
 
@@ -29,9 +29,9 @@ def _run_part(bounds: tuple[int, int]):
 def in_parts(function, n: int, parts: int, min_part: int) -> dict:
     """``function(start, stop)`` over [0, n) cut in up to ``parts`` contiguous parts on forked worker processes.
 
-    ``function`` returns a dict of 1-D arrays, one element per index of its part; the parts' arrays
-    are joined in order, so the result is the same as ``function(0, n)`` wherever each element is
-    computed on its own.  One process (``function(0, n)``) where a part would hold fewer than
+    ``function`` returns a dict of 1-D arrays (one element per index of its part, or any number: a
+    part's text); the parts' arrays are joined in order, so the result is the same as
+    ``function(0, n)`` wherever each element is computed on its own.  One process (``function(0, n)``) where a part would hold fewer than
     ``min_part`` elements, where the system cannot fork, or inside a worker process already.
     """
     import concurrent.futures

@@ -1,4 +1,4 @@
-"""The line list's CoolProp calls in parts on worker processes give the audit of one process.
+"""The line list's CoolProp calls and the CSV text, in parts on worker processes, equal one process.
 
 Source: the audit itself in one process (each state is computed on its own, so cutting the cases in
 parts must not change a single value); the sample line list holds water, steam, hydrocarbons, gas
@@ -43,3 +43,13 @@ def test_compute_in_parts_equals_one_process(monkeypatch):
     pd.testing.assert_frame_equal(one.cases, parts.cases)
     pd.testing.assert_frame_equal(one.valves, parts.valves)
     pd.testing.assert_frame_equal(one.findings, parts.findings)
+
+
+def test_csv_text_in_parts_equals_one_process(monkeypatch):
+    import audit.io.outputs as outputs
+
+    table = outputs.results_table(compute(load_linelist(SAMPLE), Options()).cases)
+    one = outputs.to_csv_text(table)
+    monkeypatch.setattr(outputs, "PART_MIN_ROWS", 10)
+    monkeypatch.setattr(outputs.os, "cpu_count", lambda: 2)
+    assert len(table) >= 20 and outputs.to_csv_text(table) == one

@@ -7,5 +7,6 @@ and builds the line list the engine sizes; ``outputs`` writes the CSV and JSON
 files and publishes a run's folder as a set.
 
 May import: ``audit.iec`` (characteristic and style names), ``audit.fluid``
-(fluid names).  Never the engine, studies or report.
+(fluid names), ``audit.workers`` (long CSV files formatted on every core).
+Never the engine, studies or report.
 """
