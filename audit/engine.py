@@ -7,7 +7,6 @@ its row with a ``case_error`` and blank numbers; it never stops the run.
 """
 from __future__ import annotations
 
-import os
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -95,7 +94,7 @@ def add_properties(cases: pd.DataFrame, ll: LineList, options: Options) -> None:
     else:
         props = in_parts(lambda a, b: mixture_gas.full_equation_inlet(fluids[a:b], p1[a:b], t1[a:b], phase_given[a:b],
                                                                      options.backend, quality=quality[a:b]),
-                         len(fluids), os.cpu_count() or 1, PART_MIN_STATES)
+                         len(fluids), PART_MIN_STATES)
     custom = cases["custom"].to_numpy(bool)
     # The temperature the properties were taken at: the given one, or the saturation temperature ('sat',
     # quality_in, or a state within the saturation tolerance).
@@ -241,7 +240,7 @@ def add_outlet_state(cases: pd.DataFrame, ll: LineList, options: Options) -> Non
     gas = cases["phase"].to_numpy(dtype=object) == "gas"
     flashing = ~gas & (p2 <= cases["pv"].to_numpy(float))
     # A liquid that does not flash leaves as the same liquid (rho_out = rho_in); only flashing
-    # liquids and gases need the (h, p) flash, which for mixtures costs a tenth of a second.
+    # liquids and gases need the (h, p) flash.
     need = ok & ~custom & (gas | flashing)
     fluids = [f if want else None for f, want in zip(fluid_objs, need)]
     h1, t1 = cases["h_in"].to_numpy(float), cases["t_in"].to_numpy(float)
@@ -250,7 +249,7 @@ def add_outlet_state(cases: pd.DataFrame, ll: LineList, options: Options) -> Non
     else:
         flash = in_parts(lambda a, b: outlet.isenthalpic_outlet(fluids[a:b], p2[a:b], h1[a:b], options.backend,
                                                                 t_in=t1[a:b], gas=gas[a:b]),
-                         len(fluids), os.cpu_count() or 1, PART_MIN_STATES)
+                         len(fluids), PART_MIN_STATES)
     rho1, p1 = (cases[c].to_numpy(float) for c in ("rho", "p_in"))
     k, m, z = (cases[c].to_numpy(float) for c in ("k", "molar_mass", "z"))
     z = np.where(np.isfinite(z), z, 1.0)

@@ -2,7 +2,8 @@
 
     python benchmarks/bench_history.py [--valves 100] [--days 30] [--repeat 3] [--format csv|parquet]
                                        [--skip-full]
-    python benchmarks/bench_history.py --valves 2000 --days 365 --repeat 3 --serial-repeat 1 --format parquet --skip-full
+    python benchmarks/bench_history.py --valves 2000 --days 365 --repeat 3 --serial-repeat 1 \
+                                       --format parquet --skip-full
                                        # the scale: a year of hourly history for 2,000 valves
 
 Builds a synthetic line list (benchmarks/synthetic.py) whose valves all name five signals, writes
@@ -55,7 +56,8 @@ def build(folder: Path, valves: int, days: int, fmt: str = "csv") -> tuple[Path,
     stamps = (pd.Timestamp("2026-01-01T00:00:00Z") + pd.to_timedelta(hours, unit="h")).strftime("%Y-%m-%dT%H:%M:%SZ")
     rng = np.random.default_rng(5)
     wide = {"time": stamps}
-    row_of = {tag: k for k, tag in enumerate(table["tag"])}  # signals are named by line-list row (some rows are refused)
+    # signals are named by line-list row (some rows are refused, so rows and audited valves differ)
+    row_of = {tag: k for k, tag in enumerate(table["tag"])}
     for tag in audit.valves["tag"]:
         i = row_of[tag]
         mine = cases[cases["tag"] == tag]

@@ -19,14 +19,14 @@ SAMPLE = pathlib.Path(__file__).resolve().parents[1] / "sample_linelist" / "fenm
 
 
 def test_in_parts_joins_the_parts_in_order_from_other_processes():
-    out = in_parts(lambda a, b: {"i": np.arange(a, b), "pid": np.full(b - a, os.getpid())}, 100, 2, 10)
+    out = in_parts(lambda a, b: {"i": np.arange(a, b), "pid": np.full(b - a, os.getpid())}, 100, 10, parts=2)
     assert np.array_equal(out["i"], np.arange(100))
     pids = set(out["pid"].tolist())
     assert os.getpid() not in pids and 1 <= len(pids) <= 2   # worker processes did the work, not this one
 
 
 def test_in_parts_runs_here_when_parts_would_be_small():
-    out = in_parts(lambda a, b: {"pid": np.full(b - a, os.getpid())}, 100, 2, 60)
+    out = in_parts(lambda a, b: {"pid": np.full(b - a, os.getpid())}, 100, 60, parts=2)
     assert set(out["pid"].tolist()) == {os.getpid()}
 
 
@@ -34,12 +34,12 @@ def test_compute_in_parts_equals_one_process(monkeypatch):
     ll = load_linelist(SAMPLE)
     one = compute(ll, Options())
     monkeypatch.setattr(engine, "PART_MIN_STATES", 20)
-    monkeypatch.setattr(engine.os, "cpu_count", lambda: 2)
+    monkeypatch.setattr(os, "cpu_count", lambda: 2)
     calls = []
     real = engine.in_parts
-    monkeypatch.setattr(engine, "in_parts", lambda f, n, parts, m: calls.append((n, parts, m)) or real(f, n, parts, m))
+    monkeypatch.setattr(engine, "in_parts", lambda f, n, m: calls.append((n, m)) or real(f, n, m))
     parts = compute(load_linelist(SAMPLE), Options())
-    assert calls and all(n >= 2 * m for n, _, m in calls)   # both CoolProp stages really ran in parts
+    assert len(calls) == 2 and all(n >= 2 * m for n, m in calls)   # both CoolProp stages really ran in parts
     pd.testing.assert_frame_equal(one.cases, parts.cases)
     pd.testing.assert_frame_equal(one.valves, parts.valves)
     pd.testing.assert_frame_equal(one.findings, parts.findings)
@@ -51,5 +51,5 @@ def test_csv_text_in_parts_equals_one_process(monkeypatch):
     table = outputs.results_table(compute(load_linelist(SAMPLE), Options()).cases)
     one = outputs.to_csv_text(table)
     monkeypatch.setattr(outputs, "PART_MIN_ROWS", 10)
-    monkeypatch.setattr(outputs.os, "cpu_count", lambda: 2)
+    monkeypatch.setattr(os, "cpu_count", lambda: 2)
     assert len(table) >= 20 and outputs.to_csv_text(table) == one

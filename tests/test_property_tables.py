@@ -10,9 +10,8 @@ import pytest
 
 import CoolProp.CoolProp as CP
 
-from audit.fluid.properties import inlet_properties, resolve_fluid
-from audit.fluid.tables import (NEAR_SATURATION_K, PROMISED_REL_ERROR, build_table, state_groups,
-                               tabulated_inlet_properties)
+from audit.fluid.properties import inlet_properties, resolve_fluid, state_groups
+from audit.fluid.tables import NEAR_SATURATION_K, PROMISED_REL_ERROR, build_table, tabulated_inlet_properties
 
 N = 3000
 

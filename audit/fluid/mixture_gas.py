@@ -23,7 +23,8 @@ import CoolProp.CoolProp as CP
 from CoolProp import AbstractState
 
 from audit.fluid.names import Fluid
-from audit.fluid.properties import INLET_FIELDS, empty_inlet, inlet_properties, place, read_state, state_for
+from audit.fluid.properties import (INLET_FIELDS, empty_inlet, inlet_properties, place, read_state, state_for,
+                                    state_groups)
 
 MARGIN_K = 10.0  # above the traced cricondentherm: room for the envelope's numerical tracing
 
@@ -81,7 +82,6 @@ def gas_mixture_properties(fluid: Fluid, p: np.ndarray, t: np.ndarray) -> dict[s
     return out
 
 
-
 def full_equation_inlet(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray, phase_given: np.ndarray,
                         backend: str = "HEOS", quality: np.ndarray | None = None) -> dict[str, np.ndarray]:
     """``inlet_properties``, with gas mixtures above their envelope on the imposed-gas route.
@@ -99,11 +99,8 @@ def full_equation_inlet(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray
     out = empty_inlet(n)
     need = np.ones(n, dtype=bool)
     simple = np.isfinite(p) & np.isfinite(t) & ~np.isfinite(quality) & (p > 0) & ((given == "") | (given == "gas"))
-    ids = np.fromiter(map(id, fluids), dtype=np.int64, count=n)   # the engine shares one object per fluid
-    mixtures = {id(f): f for f in fluids if f is not None and f.is_mixture}
-    for key, fluid in mixtures.items():
-        idx = np.flatnonzero(simple & (ids == key))
-        if idx.size == 0:
+    for fluid, idx in state_groups(fluids, np.zeros(n, dtype=np.int64), simple):
+        if not fluid.is_mixture:
             continue
         # each distinct state once (a site's fuel gas repeats a few), spread back to its cases
         states, back = np.unique(np.stack([p[idx], t[idx]], axis=1), axis=0, return_inverse=True)

@@ -26,8 +26,9 @@ import numpy as np
 
 from audit.fluid.names import Fluid
 from audit.fluid.outlet import isenthalpic_outlet
+from audit.fluid.properties import state_groups
 from audit.fluid.tables import (CHECK_REL_ERROR, MAX_REFINE, MIN_STATES, NEAR_SATURATION_K, START_NODES, Table,
-                                full_equation, state_groups)
+                                full_equation)
 
 T_CHECK_K = 0.05        # outlet temperature from the table against the full equation, at the check points
 PROBES = 12             # full outlet calculations that find the temperature range a valve's outlet visits

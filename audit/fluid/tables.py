@@ -29,13 +29,12 @@ fluids always take the full equation.  Results have the layout of
 from __future__ import annotations
 
 import numpy as np
-import pandas as pd
 
 import CoolProp.CoolProp as CP
 
 from audit.fluid.names import Fluid
 from audit.fluid.mixture_gas import full_equation_inlet, gas_mixture_properties
-from audit.fluid.properties import INLET_FIELDS, empty_inlet, inlet_properties, place
+from audit.fluid.properties import INLET_FIELDS, empty_inlet, inlet_properties, place, state_groups
 
 PROMISED_REL_ERROR = 1e-3     # density and vapour pressure, against the full equation
 CHECK_REL_ERROR = 5e-4        # what a table must show on its own check points to be used
@@ -45,27 +44,6 @@ START_NODES = 12              # per axis; refined up to START_NODES * 2**MAX_REF
 MAX_REFINE = 3
 LOG_FIELDS = ("rho", "pv", "mu")  # interpolated as logarithms (near-exponential in T, or linear in p)
 CHECKED = ("rho", "pv", "mu", "sound_speed", "k")  # what the self-check compares (sizing and noise read them)
-
-
-def state_groups(fluids: list[Fluid | None], label: np.ndarray, mask: np.ndarray) -> list[tuple[Fluid, np.ndarray]]:
-    """The states in ``mask`` grouped by fluid and label: [(fluid, indices in ascending order)].
-
-    Vectorised (a history holds millions of states): fluids are told apart by identity, as the
-    engine hands every case of a valve the same fluid object; equal fluids held in distinct
-    objects only make more, smaller groups.  None (a custom fluid) is never grouped.
-    """
-    n = len(fluids)
-    ids = np.fromiter(map(id, fluids), dtype=np.int64, count=n)
-    keep = np.flatnonzero(np.asarray(mask, bool) & (ids != id(None)))
-    if keep.size == 0:
-        return []
-    fluid_code, _ = pd.factorize(ids[keep])          # hashing, not sorting: few distinct values
-    label_code, labels = pd.factorize(np.asarray(label)[keep])
-    key = fluid_code.astype(np.int64) * max(len(labels), 1) + label_code
-    order = np.argsort(key, kind="stable")           # ascending indices within each group
-    groups = np.split(keep[order], np.flatnonzero(np.diff(key[order])) + 1)
-    return [(fluids[g[0]], g) for g in groups]
-
 
 
 def full_equation(fluid: Fluid, p: np.ndarray, t: np.ndarray, backend: str = "HEOS") -> dict[str, np.ndarray]:

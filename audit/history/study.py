@@ -24,6 +24,7 @@ from audit.io.columns import CASE_FIELDS, CASE_PLAUSIBLE, HISTORY_SIGNALS
 from audit.io.loader import LineList
 from audit.io.reader import InputError
 from audit.io.units import unit_rule
+from audit.workers import map_on_workers
 
 NS_PER_HOUR = 3_600 * 10**9
 NS_PER_MONTH = int(30.44 * 24 * NS_PER_HOUR)  # docs/history.md: a month of 30.44 days
@@ -325,22 +326,6 @@ def _chunks(items: list, hist: History, chunk_samples: int) -> list[list]:
     return chunks + ([current] if current else [])
 
 
-def _run_chunks(chunks: list, workers: int) -> list:
-    """Each chunk through ``_study_chunk``, on ``workers`` forked processes where there is more than one
-    chunk and the system can fork; the results in chunk order either way, so the output does not depend
-    on the number of workers."""
-    import concurrent.futures
-    import multiprocessing
-
-    if workers < 2 or len(chunks) < 2 or "fork" not in multiprocessing.get_all_start_methods():
-        return [_study_chunk(c) for c in chunks]
-    from audit.workers import die_with_parent
-
-    with concurrent.futures.ProcessPoolExecutor(min(workers, len(chunks)), mp_context=multiprocessing.get_context("fork"),
-                                                initializer=die_with_parent) as pool:
-        return list(pool.map(_study_chunk, chunks))
-
-
 def study_history(base, settings: HistorySettings, options) -> HistoryResult:
     """Read, clean and audit the history of every valve that names signals; see the module docstring.
 
@@ -348,8 +333,6 @@ def study_history(base, settings: HistorySettings, options) -> HistoryResult:
     operating floor and the quantities a valve has no signal for).
     Raises InputError for an unreadable file, a named signal no file holds, or a history matching no valve.
     """
-    import os
-
     from rules import effective_thresholds
 
     hist = read_history(list(settings.files), settings.tz)
@@ -360,7 +343,8 @@ def study_history(base, settings: HistorySettings, options) -> HistoryResult:
     chunks = _chunks(sorted(named.items()), hist, settings.chunk_samples)
     _JOB["args"] = (base, hist, settings, options, th)
     try:
-        results = _run_chunks(chunks, settings.workers or os.cpu_count() or 1)
+        # chunk order kept, so the output does not depend on the number of workers
+        results = map_on_workers(_study_chunk, chunks, settings.workers or None)
     finally:
         _JOB.clear()
     rows, reps, traces = [], [], {}

@@ -99,7 +99,7 @@ def to_csv_text(frame: pd.DataFrame) -> str:
     head = io.StringIO()
     csv.writer(head, lineterminator="\n").writerow([str(c) for c in frame.columns])
     body = in_parts(lambda a, b: {"text": np.array([_rows_text(frame, a, b)], dtype=object)}, len(frame),
-                    os.cpu_count() or 1, PART_MIN_ROWS)
+                    PART_MIN_ROWS)
     return head.getvalue() + "".join(body["text"].tolist())
 
 
