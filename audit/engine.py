@@ -18,6 +18,7 @@ from audit.iec.characteristic import travel_percent
 from audit.studies.headroom import add_case_headroom, add_valve_headroom
 from audit.io.loader import LineList
 from audit.workers import in_parts
+from audit.memory import release_free_memory
 
 R_GAS = properties.R_GAS
 # The line list's CoolProp calls (one state a case) run on every core in contiguous parts of at least
@@ -305,10 +306,12 @@ def compute(ll: LineList, options: Options | None = None) -> Audit:
     options = options or Options()
     cases = case_table(ll, options)
     add_properties(cases, ll, options)
+    release_free_memory()  # after each large stage: what it freed goes back to the system (audit.memory)
     add_mass_flow(cases, ll, options)
     ll, cases = reject_unauditable(ll, cases)
     add_sizing(cases)
     add_outlet_state(cases, ll, options)
+    release_free_memory()
     if not options.summarise:  # the history's samples: counted, never ranked, so no headroom either
         from rules.base import without_sentences
 
@@ -316,9 +319,12 @@ def compute(ll: LineList, options: Options | None = None) -> Audit:
             findings = apply_rules(cases, options.thresholds, options.rules, graded=False)
         return Audit(cases, ll.valves, ll.rejected, findings, ll, options)
     add_case_headroom(cases, effective_thresholds(options.thresholds)["travel"]["high_pct"])
+    release_free_memory()
     findings = apply_rules(cases, options.thresholds, options.rules)
+    release_free_memory()
     valves = rank_valves(ll.valves, cases, findings)
     extra = add_valve_headroom(cases, valves)
+    release_free_memory()
     audit = Audit(cases, valves, ll.rejected, findings, ll, options)
     audit.valve_extra_columns = ("criticality",) + tuple(extra)
     return audit

@@ -14,6 +14,7 @@ from audit import OUTPUT_FORMAT_VERSION, __version__
 from audit.engine import Audit, Options, compute
 from audit.io.loader import LineList, Limits, load_linelist
 from audit.io.outputs import OutputError, check_writable, staged_folder, write_csvs
+from audit.memory import release_free_memory, use_system_allocator_for_text
 
 
 @dataclass
@@ -88,6 +89,7 @@ def run_audit(linelist, options: Options, limits: Limits | None = None, sheet: s
     progress = progress or _Progress(True)
     with progress.stage("Reading the line list"):
         ll = load_linelist(linelist, sheet=sheet, p_atm=options.p_atm, limits=limits)
+    release_free_memory()  # the file's text and cells are gone; give their pages back before the engine
     check_options(ll, options)
     progress.report_input(ll)
     with progress.stage(f"Auditing {len(ll.valves)} valves ({len(ll.cases)} cases)"):
@@ -125,6 +127,7 @@ def run_files(linelist, out: Path, options: Options, limits: Limits | None = Non
     """Audit ``linelist`` (a path, or '-' for standard input) and write the chosen outputs into ``out``."""
     formats = formats or {"csv", "html", "pdf", "xlsx"}
     check_writable(Path(out))
+    use_system_allocator_for_text()  # so that release_free_memory reaches pandas' text columns too
     planner = _read_previous(previous) if previous else None  # before this run can replace that folder
     progress = _Progress(quiet)
     audit = run_audit(linelist, options, limits, sheet, trims_file, progress, history)
@@ -165,6 +168,7 @@ def _read_previous(folder: Path):
 
 def _write_outputs(out: Path, audit: Audit, meta: dict, formats: set[str], progress, planner=None) -> list[str]:
     """Every chosen output, staged and then published at once; returns the names written."""
+    release_free_memory()
     with staged_folder(out) as stage:
         with progress.stage("Writing the CSV outputs"):
             write_csvs(stage, audit)

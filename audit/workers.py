@@ -34,6 +34,7 @@ def map_on_workers(function, items: list, workers: int | None = None) -> list:
     process already.  ``function`` and what it reads are shared by the fork, not sent.
     """
     import concurrent.futures
+    import gc
     import multiprocessing
     import os
 
@@ -42,12 +43,14 @@ def map_on_workers(function, items: list, workers: int | None = None) -> list:
             or multiprocessing.parent_process() is not None):
         return [function(item) for item in items]
     _TASK["function"] = function
+    gc.freeze()  # the workers' collector then leaves the shared objects alone, so their pages stay shared
     try:
         with concurrent.futures.ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork"),
                                                     initializer=die_with_parent) as pool:
             return list(pool.map(_run_task, items))
     finally:
         _TASK.clear()
+        gc.unfreeze()
 
 
 def in_parts(function, n: int, min_part: int, parts: int | None = None) -> dict:

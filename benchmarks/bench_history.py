@@ -107,7 +107,7 @@ def _child(ll: str, hist: str, out: str, tables: bool, workers: int = 0) -> dict
     from audit.engine import Options, compute
     from audit.history.study import HistorySettings, study_history
     from audit.io.loader import load_linelist
-    from audit.io.outputs import to_csv_text
+    from audit.io.outputs import write_csv
 
     instrument()
     base = compute(load_linelist(Path(ll)))
@@ -117,7 +117,7 @@ def _child(ll: str, hist: str, out: str, tables: bool, workers: int = 0) -> dict
         result = study_history(base, HistorySettings(files=(Path(hist),), property_tables=tables, workers=workers),
                                Options())
     t1 = time.perf_counter()
-    (Path(out) / "history_out.csv").write_text(to_csv_text(result.table), encoding="utf-8")
+    write_csv(Path(out) / "history_out.csv", result.table)
     TIMES["write"] += time.perf_counter() - t1
     return {"stages": dict(TIMES), "total": time.perf_counter() - t0,
             "samples": int(result.table["samples_used"].sum()),

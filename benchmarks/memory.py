@@ -3,16 +3,17 @@ from __future__ import annotations
 
 
 class TreeMemory:
-    """Peak proportional set size (PSS) of this process and all its descendants, sampled every 0.2 s.
+    """Peak proportional set size (PSS) of this process and all its descendants, sampled every ``every`` s.
 
     PSS shares each page among the processes that map it, so forked workers that share the parent's
     pages are not counted twice (Linux /proc/<pid>/smaps_rollup; 0 where it cannot be read)."""
 
-    def __init__(self):
+    def __init__(self, every: float = 0.2):
         import os
         import threading
 
         self.peak_mb = 0.0
+        self._every = every
         self._stop = threading.Event()
         self._root = os.getpid()
         self._thread = threading.Thread(target=self._run, daemon=True)
@@ -49,7 +50,7 @@ class TreeMemory:
     def _run(self):
         while not self._stop.is_set():
             self.peak_mb = max(self.peak_mb, sum(self._pss_kb(p) for p in self._tree()) / 1024.0)
-            self._stop.wait(0.2)
+            self._stop.wait(self._every)
 
     def __enter__(self):
         self._thread.start()

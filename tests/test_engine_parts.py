@@ -1,4 +1,4 @@
-"""The line list's CoolProp calls and the CSV text, in parts on worker processes, equal one process.
+"""The line list's CoolProp calls and the CSV files, in parts on worker processes, equal one process.
 
 Source: the audit itself in one process (each state is computed on its own, so cutting the cases in
 parts must not change a single value); the sample line list holds water, steam, hydrocarbons, gas
@@ -45,11 +45,20 @@ def test_compute_in_parts_equals_one_process(monkeypatch):
     pd.testing.assert_frame_equal(one.findings, parts.findings)
 
 
-def test_csv_text_in_parts_equals_one_process(monkeypatch):
+def test_write_csv_in_parts_equals_one_process(monkeypatch, tmp_path):
     import audit.io.outputs as outputs
 
     table = outputs.results_table(compute(load_linelist(SAMPLE), Options()).cases)
-    one = outputs.to_csv_text(table)
+    one = outputs.to_csv_text(table).encode("utf-8")
+    outputs.write_csv(tmp_path / "one.csv", table)
     monkeypatch.setattr(outputs, "PART_MIN_ROWS", 10)
+    monkeypatch.setattr(outputs, "CSV_BLOCK_ROWS", 3)  # several blocks in each part
     monkeypatch.setattr(os, "cpu_count", lambda: 2)
-    assert len(table) >= 20 and outputs.to_csv_text(table) == one
+    calls = []
+    real = outputs.in_parts
+    monkeypatch.setattr(outputs, "in_parts", lambda f, n, m: calls.append(n // m) or real(f, n, m))
+    outputs.write_csv(tmp_path / "parts.csv", table)
+    assert len(table) >= 20 and calls and calls[0] >= 2   # really written in parts
+    assert (tmp_path / "one.csv").read_bytes() == one
+    assert (tmp_path / "parts.csv").read_bytes() == one
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["one.csv", "parts.csv"]   # no part file left behind

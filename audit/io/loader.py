@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import os
 import re
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 import pandas as pd
@@ -38,7 +38,7 @@ class LineList:
     rejected: pd.DataFrame
     ignored_columns: list[str] = field(default_factory=list)
     rows_total: int = 0
-    source: RawTable | None = None      # where it came from: name, sheet, digest, reader notes
+    source: RawTable | None = None      # where it came from: name, sheet, digest, reader notes (no cells)
     units: dict = field(default_factory=dict)  # the unit each column's header gave, by column name
 
 
@@ -111,8 +111,7 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     valves["noise_stp"] = num["noise_stp"]
     for col in OVERRIDES + ("sound_speed",):
         valves[col] = num[col]
-    valves["overridden"] = [", ".join(c for c in OVERRIDES if np.isfinite(num[c][i])
-                                      and not valves["custom"][i]) for i in range(n)]
+    valves["overridden"] = _overridden(num, valves["custom"].to_numpy(bool))
 
     cases = read_cases(table, units, site, n, raw.decimal_comma, limits)
     has_case = np.zeros(n, dtype=bool)
@@ -149,7 +148,18 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
         cases = cases[~bad[cases["valve"].to_numpy()]].copy()
         cases["valve"] = remap[cases["valve"].to_numpy()]
         cases = cases.reset_index(drop=True)
-    return LineList(valves, cases, rejected, ignored, rows_total=n + len(unread), source=raw, units=units)
+    # The cells are in the tables now; keeping them beside would hold every cell's text for the whole run.
+    source = replace(raw, rows=[], row_numbers=[])
+    return LineList(valves, cases, rejected, ignored, rows_total=n + len(unread), source=source, units=units)
+
+
+def _overridden(num: dict, custom: np.ndarray) -> np.ndarray:
+    """Per valve, the property columns given in place of CoolProp's ('' for none, and for a custom fluid)."""
+    given = np.column_stack([np.isfinite(num[c]) for c in OVERRIDES]) & ~custom[:, None]
+    out = np.full(len(custom), "", dtype=object)
+    for i in np.flatnonzero(given.any(axis=1)):  # few rows give any
+        out[i] = ", ".join(c for c, g in zip(OVERRIDES, given[i]) if g)
+    return out
 
 
 def _columns(raw: RawTable):

@@ -88,32 +88,58 @@ def _join_notes(*columns: pd.Series) -> list[str]:
     return ["; ".join(x for x in row if isinstance(x, str) and x) for row in zip(*columns)]
 
 
+def write_csv(path: Path, frame: pd.DataFrame) -> None:
+    """Write ``frame`` as CSV text to ``path`` (UTF-8, '\\n' line ends; cells as ``to_csv_text``).
+
+    Streamed a block of rows at a time, so no copy of the table as Python strings is ever whole.  A
+    long table is formatted in contiguous parts of rows on every core (``workers.in_parts``), each
+    into a file of its own beside ``path``; the parts are then joined in order.  Rows are written on
+    their own, so the bytes are the same as in one process.
+    """
+    path = Path(path)
+
+    def part(start: int, stop: int) -> dict:
+        target = path if (start, stop) == (0, len(frame)) else path.with_name(f"{path.name}.part{start}")
+        with open(target, "w", encoding="utf-8", newline="") as fh:
+            if start == 0:
+                _write_header(fh, frame)
+            _write_rows(fh, frame, start, stop)
+        return {"file": np.array([str(target)], dtype=object)}
+
+    files = in_parts(part, len(frame), PART_MIN_ROWS)["file"].tolist()
+    if files == [str(path)]:
+        return
+    with open(path, "wb") as out:
+        for name in files:
+            with open(name, "rb") as fh:
+                shutil.copyfileobj(fh, out, 1 << 20)
+            os.unlink(name)
+
+
 def to_csv_text(frame: pd.DataFrame) -> str:
     """CSV text: formula-like cells neutralised, booleans true/false, floats to 6 significant digits.
 
-    Built column by column into lists of strings, a block of rows at a time, and written by the csv
-    module (the same quoting pandas uses), without a copy of the whole table as Python strings.  A
-    long table is formatted in contiguous parts of rows on every core (``workers.in_parts``); rows
-    are written on their own, so the text is the same.
+    In one process, for short tables (the comparison); the audit's files go through ``write_csv``.
     """
-    head = io.StringIO()
-    csv.writer(head, lineterminator="\n").writerow([str(c) for c in frame.columns])
-    body = in_parts(lambda a, b: {"text": np.array([_rows_text(frame, a, b)], dtype=object)}, len(frame),
-                    PART_MIN_ROWS)
-    return head.getvalue() + "".join(body["text"].tolist())
-
-
-def _rows_text(frame: pd.DataFrame, start: int, stop: int) -> str:
     buf = io.StringIO()
-    writer = csv.writer(buf, lineterminator="\n")
-    for first in range(start, stop, CSV_BLOCK_ROWS):  # a block at a time: few cell strings alive at once
-        part = frame.iloc[first:min(first + CSV_BLOCK_ROWS, stop)]
-        writer.writerows(zip(*(_cells(part[c]) for c in part.columns)))
+    _write_header(buf, frame)
+    _write_rows(buf, frame, 0, len(frame))
     return buf.getvalue()
 
 
+def _write_header(fh, frame: pd.DataFrame) -> None:
+    csv.writer(fh, lineterminator="\n").writerow([str(c) for c in frame.columns])
+
+
+def _write_rows(fh, frame: pd.DataFrame, start: int, stop: int) -> None:
+    writer = csv.writer(fh, lineterminator="\n")
+    for first in range(start, stop, CSV_BLOCK_ROWS):  # a block at a time: few cell strings alive at once
+        part = frame.iloc[first:min(first + CSV_BLOCK_ROWS, stop)]
+        writer.writerows(zip(*(_cells(part[c]) for c in part.columns)))
+
+
 PART_MIN_ROWS = 20_000  # rows a worker formats at least: a fork costs some 20 ms, a row of results.csv 20 us
-CSV_BLOCK_ROWS = 5000
+CSV_BLOCK_ROWS = 2000
 
 
 def _cells(series: pd.Series) -> list:
@@ -281,13 +307,12 @@ class OutputError(Exception):
 
 
 def write_csvs(folder: Path, audit) -> None:
-    (folder / "results.csv").write_text(to_csv_text(results_table(audit.cases)), encoding="utf-8")
-    (folder / "valves.csv").write_text(to_csv_text(audit.valves[VALVES_COLUMNS + _extra_valve_columns(audit)]),
-                                       encoding="utf-8")
+    write_csv(folder / "results.csv", results_table(audit.cases))
+    write_csv(folder / "valves.csv", audit.valves[VALVES_COLUMNS + _extra_valve_columns(audit)])
     rejected = audit.rejected[REJECTED_COLUMNS] if len(audit.rejected) else pd.DataFrame(columns=REJECTED_COLUMNS)
-    (folder / "rejected.csv").write_text(to_csv_text(rejected), encoding="utf-8")
+    write_csv(folder / "rejected.csv", rejected)
     if getattr(audit, "history", None) is not None:
-        (folder / "history.csv").write_text(to_csv_text(audit.history.table), encoding="utf-8")
+        write_csv(folder / "history.csv", audit.history.table)
 
 
 def _extra_valve_columns(audit) -> list[str]:
