@@ -1,4 +1,4 @@
-"""The line list's CoolProp calls and the CSV files, in parts on worker processes, equal one process.
+"""Parts (worker processes) and blocks equal one pass: CoolProp calls, sizing, CSV files.
 
 Source: the audit itself in one process (each state is computed on its own, so cutting the cases in
 parts must not change a single value); the sample line list holds water, steam, hydrocarbons, gas
@@ -62,3 +62,18 @@ def test_write_csv_in_parts_equals_one_process(monkeypatch, tmp_path):
     assert (tmp_path / "one.csv").read_bytes() == one
     assert (tmp_path / "parts.csv").read_bytes() == one
     assert sorted(p.name for p in tmp_path.iterdir()) == ["one.csv", "parts.csv"]   # no part file left behind
+
+
+def test_size_valves_in_blocks_equals_one_pass(monkeypatch):
+    """The sizing in blocks of cases (SIZING_BLOCK) gives every case the numbers of one pass over all."""
+    import audit.iec.sizing as sizing
+
+    one = compute(load_linelist(SAMPLE), Options())
+    monkeypatch.setattr(sizing, "SIZING_BLOCK", 7)   # many blocks, the last one short
+    calls = []
+    real = sizing._size_block
+    monkeypatch.setattr(sizing, "_size_block", lambda *a: calls.append(1) or real(*a))
+    blocks = compute(load_linelist(SAMPLE), Options())
+    assert len(one.cases) > 3 * 7 and len(calls) > 3
+    pd.testing.assert_frame_equal(one.cases, blocks.cases)
+    pd.testing.assert_frame_equal(one.findings, blocks.findings)

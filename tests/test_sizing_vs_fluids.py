@@ -82,8 +82,13 @@ def _compare_kv(ours, ref):
         return
     step, c0, d = ref
     assert step(kv) == pytest.approx(kv, rel=TOL)
+    if kv / (d * 1000) ** 2 > 0.04:
+        # Beyond, (2) is not made; the reference's fixed point may not even exist there: with an
+        # outlet expander alone the loss sum is negative and 1 + sum/N2 (C/d^2)^2 falls below zero
+        # at large C (its FP a square root of a negative number; seen at C/d^2 = 0.084).
+        return
     fixed = reference.converge(step, c0)
-    if np.isfinite(fixed) and kv / (d * 1000) ** 2 <= 0.04:
+    if np.isfinite(fixed):
         assert kv <= fixed * 1.02
 
 

@@ -105,7 +105,8 @@ def add_case_headroom(cases: pd.DataFrame, high_travel_pct: float) -> None:
 def add_valve_headroom(cases: pd.DataFrame, valves: pd.DataFrame) -> list[str]:
     """Per-valve minima of the case headroom on ``valves`` (indexed by its ``valve`` column)."""
     per_valve = cases.groupby("valve").agg(**{name: (name, "min") for name in HEADROOM_CASE_COLUMNS})
-    limiting = cases[np.isfinite(cases["flow_mult_full_travel"].to_numpy(float))] \
+    finite = np.isfinite(cases["flow_mult_full_travel"].to_numpy(float))
+    limiting = cases.loc[finite, ["valve", "flow_mult_full_travel", "case"]] \
         .sort_values(["valve", "flow_mult_full_travel"], kind="stable").drop_duplicates("valve")
     per_valve["headroom_case"] = pd.Series(limiting["case"].to_numpy(), index=limiting["valve"].to_numpy())
     joined = valves[["valve"]].join(per_valve, on="valve")
