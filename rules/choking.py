@@ -16,13 +16,14 @@ def evaluate(cases, th) -> RuleResult:
     gas = text(cases, "phase") == "gas"
     p1, p2, dp_ch = col(cases, "p_in"), col(cases, "p_out"), col(cases, "dp_choked")
     dp = p1 - p2
+    x, x_choked = col(cases, "x"), col(cases, "x_choked")  # read once: a sentence is written per finding
     name = text(cases, "case")
     choked = ok & (ratio >= th["choked"])
     near = ok & (ratio >= th["watch"]) & ~choked
 
     def headroom(i):
         if gas[i]:
-            return (f"x is {col(cases, 'x')[i]:.3f} against a choked limit of {col(cases, 'x_choked')[i]:.3f}; "
+            return (f"x is {x[i]:.3f} against a choked limit of {x_choked[i]:.3f}; "
                     f"the outlet pressure can fall to {bar(p1[i] - dp_ch[i])} (dp {dp_ch[i] / 1e3:.0f} kPa) "
                     "before the flow chokes")
         return (f"dp is {dp[i] / 1e3:.0f} kPa against a choked limit of {dp_ch[i] / 1e3:.0f} kPa; "
@@ -35,7 +36,7 @@ def evaluate(cases, th) -> RuleResult:
             findings(choked, "CHOKED", lambda i: (
                 f"Choked at case {name[i]} (choke ratio {ratio[i]:.2f}): a lower outlet pressure will not "
                 f"raise the flow; {'dp' if not gas[i] else 'x'} is past the limit of "
-                f"{(dp_ch[i] / 1e3) if not gas[i] else col(cases, 'x_choked')[i]:.3g}"
+                f"{(dp_ch[i] / 1e3) if not gas[i] else x_choked[i]:.3g}"
                 f"{' kPa' if not gas[i] else ''}."), value=ratio),
             findings(near, "CHOKE_NEAR", lambda i: (
                 f"Near choking at case {name[i]} (choke ratio {ratio[i]:.2f}): {headroom(i)}."), value=ratio),

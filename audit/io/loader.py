@@ -212,7 +212,10 @@ def _columns(raw: RawTable):
                          "with a 'case' column (docs/input.md)")
     _require(names, ignored)
     keep = [i for i, n in enumerate(names) if n]
-    table = pd.DataFrame({names[i]: [r[i] if i < len(r) else "" for r in rows] for i in keep}, dtype=object)
+    width = len(names)
+    padded = rows if all(len(r) == width for r in rows) else [list(r[:width]) + [""] * (width - len(r)) for r in rows]
+    columns = list(zip(*padded)) if padded else [()] * width  # one transposition in C, not a loop per column
+    table = pd.DataFrame({names[i]: list(columns[i]) for i in keep}, dtype=object)
     if not keep:
         table = pd.DataFrame(index=range(len(rows)))
     unit_of = {names[i]: units[i] for i in keep}

@@ -66,8 +66,11 @@ def text_column(table: pd.DataFrame, col: str) -> np.ndarray:
 def check_cell_length(table: pd.DataFrame, limits: Limits, reasons: Reasons) -> None:
     for col in table.columns:
         values = table[col].to_numpy(dtype=object)
-        if all(type(v) is str for v in values) and max(map(len, values), default=0) <= limits.max_cell_chars:
-            continue  # the common case, decided without a per-cell array
+        try:  # the common case, all text within the limit, decided without a per-cell array
+            if max(map(len, values), default=0) <= limits.max_cell_chars:
+                continue
+        except TypeError:  # a number or an empty cell of a workbook: measured as text below
+            pass
         lengths = np.fromiter((len(str(v)) for v in values), dtype=np.int64, count=len(table))
         reasons.add(lengths > limits.max_cell_chars,
                     lambda i, col=col, lengths=lengths: f"column '{col}': a cell of {lengths[i]:,} characters, "
@@ -175,11 +178,9 @@ def check_valve(text, num, reasons: Reasons, valves: pd.DataFrame) -> None:
     style = np.array([styles.normalise_style(s) for s in text["valve_style"]], dtype=object)
     typical = np.full(n, "", dtype=object)
     gasish = np.array([p == "gas" for p in valves.get("phase_given", [""] * n)])
-    for i in range(n):
-        needed = [("fl", fl), ("fd", fd), ("xt", xt)]
+    needed = [("fl", fl), ("fd", fd), ("xt", xt)]
+    for i in np.flatnonzero(~(np.isfinite(fl) & np.isfinite(fd) & np.isfinite(xt))):  # rows with a factor blank
         missing = [name for name, arr in needed if not np.isfinite(arr[i])]
-        if not missing:
-            continue
         if style[i]:
             if style[i] not in styles.TYPICAL_FACTORS:
                 reasons.note(i, f"column 'valve_style': '{_clip(text['valve_style'][i])}' is not one of "
