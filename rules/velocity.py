@@ -61,9 +61,10 @@ def evaluate(cases, th) -> RuleResult:
         return (f"Body inlet velocity {measure} at case {name[i]} is above {limit_text} (common practice): "
                 "erosion at the inlet, and the inlet pressure the sizing assumed is not quite the one the valve sees.")
 
-    kind_out = np.where(gas, "gas", "two-phase mixture")
-    note = np.where(outlet_choked, "outlet velocity limited by choking at the outlet (the speed of sound of the "
-                                   "outlet " + kind_out + ")", "")
+    kind_out = np.where(gas, "gas", "two-phase mixture").astype(object)
+    note = np.full(len(cases), "", dtype=object)  # text only where it applies (a fixed-width array per case is MBs)
+    note[outlet_choked] = [f"outlet velocity limited by choking at the outlet (the speed of sound of the outlet {k})"
+                           for k in kind_out[outlet_choked]]
     return RuleResult(
         columns={"velocity_out_m_s": u, "mach_out": mach, "velocity_limit_m_s": limit, "velocity_in_m_s": u_in,
                  "velocity_line_in_m_s": u_line, "outlet_choked": outlet_choked, "velocity_note": note},

@@ -4,6 +4,7 @@ Source: the audit itself in one process (each state is computed on its own, so c
 parts must not change a single value); the sample line list holds water, steam, hydrocarbons, gas
 mixtures and flashing and custom-fluid rows.
 """
+import collections
 import os
 import pathlib
 
@@ -64,16 +65,27 @@ def test_write_csv_in_parts_equals_one_process(monkeypatch, tmp_path):
     assert sorted(p.name for p in tmp_path.iterdir()) == ["one.csv", "parts.csv"]   # no part file left behind
 
 
-def test_size_valves_in_blocks_equals_one_pass(monkeypatch):
-    """The sizing in blocks of cases (SIZING_BLOCK) gives every case the numbers of one pass over all."""
-    import audit.iec.sizing as sizing
+def test_array_models_in_blocks_equal_one_pass(monkeypatch):
+    """The sizing and the noise methods in blocks of cases (audit.iec.blocks) give every case the
+    numbers of one pass over all."""
+    import audit.iec.blocks as blocks
 
     one = compute(load_linelist(SAMPLE), Options())
-    monkeypatch.setattr(sizing, "SIZING_BLOCK", 7)   # many blocks, the last one short
-    calls = []
-    real = sizing._size_block
-    monkeypatch.setattr(sizing, "_size_block", lambda *a: calls.append(1) or real(*a))
-    blocks = compute(load_linelist(SAMPLE), Options())
-    assert len(one.cases) > 3 * 7 and len(calls) > 3
-    pd.testing.assert_frame_equal(one.cases, blocks.cases)
-    pd.testing.assert_frame_equal(one.findings, blocks.findings)
+    monkeypatch.setattr(blocks, "BLOCK", 7)   # many blocks, the last one short
+    calls = collections.Counter()
+
+    def counted(f):
+        def run(*a, **k):
+            calls[f.__name__] += 1
+            return f(*a, **k)
+        return run
+
+    real = blocks.in_blocks
+    for module in ("sizing", "noise_gas", "noise_liquid"):
+        target = __import__(f"audit.iec.{module}", fromlist=["in_blocks"])
+        monkeypatch.setattr(target, "in_blocks", lambda f, *a, **k: real(counted(f), *a, **k))
+    in_blocks = compute(load_linelist(SAMPLE), Options())
+    # each model really ran in several blocks (the sample's gas and liquid cases are more than 7 each)
+    assert min(calls[n] for n in ("_size_block", "_gas_noise_block", "_liquid_noise_block")) >= 2, calls
+    pd.testing.assert_frame_equal(one.cases, in_blocks.cases)
+    pd.testing.assert_frame_equal(one.findings, in_blocks.findings)

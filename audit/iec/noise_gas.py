@@ -45,6 +45,7 @@ from __future__ import annotations
 import numpy as np
 
 from audit.iec import acoustics as ac
+from audit.iec.blocks import in_blocks
 
 
 AN_GLOBE = -3.8          # acoustic efficiency correction of a globe valve with cage trim
@@ -159,6 +160,11 @@ def gas_noise(m, p1, p2, rho1, k, kv, fl, fd, d, di, wall, rho2, c2, an=AN_GLOBE
     (True where clause 7's outlet-flow noise was added), internal_level_db
     (the trim's overall internal level Lpi [dB], before the spectrum).
     """
+    return in_blocks(_gas_noise_block, m, p1, p2, rho1, k, kv, fl, fd, d, di, wall, rho2, c2, an=an, stp=stp,
+                     rho_s=rho_s, c_s=c_s, outlet_flow=outlet_flow)
+
+
+def _gas_noise_block(m, p1, p2, rho1, k, kv, fl, fd, d, di, wall, rho2, c2, an, stp, rho_s, c_s, outlet_flow):
     col = ac.column
     m, p1, p2, rho1, k, kv, fl, fd = (col(x) for x in (m, p1, p2, rho1, k, kv, fl, fd))
     k = np.where(np.abs(k - 1.0) < 1e-6, 1.0 + 1e-6, k)  # k/(k-1) is a removable singularity at exactly 1

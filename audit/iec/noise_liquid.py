@@ -40,6 +40,7 @@ import numpy as np
 
 from audit.iec import acoustics as ac
 from audit.iec.acoustics import jet_diameter
+from audit.iec.blocks import in_blocks
 from audit.iec.sizing import KV_TO_CV
 
 AN_GLOBE = -4.6
@@ -115,6 +116,11 @@ def liquid_noise(m, p1, p2, pv, rho, c_liquid, kv, d, di, wall, fl, fd, xfz, an=
     Returns a dict: level_dba, and per case fp_turb, fp_cav [Hz], xf, xfzp1,
     eta_turb, eta_cav.
     """
+    return in_blocks(_liquid_noise_block, m, p1, p2, pv, rho, c_liquid, kv, d, di, wall, fl, fd, xfz, an=an,
+                     rho_s=rho_s, c_s=c_s)
+
+
+def _liquid_noise_block(m, p1, p2, pv, rho, c_liquid, kv, d, di, wall, fl, fd, xfz, an, rho_s, c_s):
     col = ac.column
     p1, p2, pv, rho, c_liquid = col(p1), col(p2), col(pv), col(rho), col(c_liquid)
     kv, d, di, wall, fl, fd, xfz, m = col(kv), col(d), col(di), col(wall), col(fl), col(fd), col(xfz), col(m)

@@ -26,6 +26,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from .blocks import in_blocks
+
 # Numerical constants for Kv, IEC 60534-2-1 Table 1 (flows m3/h or kg/h, kPa, mm, K).
 N1 = 1.0e-1
 N2 = 1.6e-3
@@ -239,19 +241,7 @@ def size_valves(is_gas, w, p1, p2, t1, rho1, pv, pc, mu, molar_mass, k, d, d1, d
     or reducers that alone choke it) come back with NaN and converged False.
     Validity: p2 < p1, single-phase inlet, positive flow.
     """
-    args = (is_gas, w, p1, p2, t1, rho1, pv, pc, mu, molar_mass, k, d, d1, d2, fl, xt, fd)
-    arrays = np.broadcast_arrays(*(np.asarray(a) for a in args))
-    n = arrays[0].size
-    if arrays[0].ndim != 1 or n <= SIZING_BLOCK:
-        return _size_block(*args)
-    parts = [_size_block(*(a[start:start + SIZING_BLOCK] for a in arrays)) for start in range(0, n, SIZING_BLOCK)]
-    return {name: np.concatenate([part[name] for part in parts]) for name in parts[0]}
-
-
-# Cases sized at once.  The search evaluates the sizing some 47 times on every array; in blocks of
-# this size its temporaries stay in the processor's cache and the heap does not grow with the list
-# (each case is sized on its own, so the blocks give the same numbers as one pass).
-SIZING_BLOCK = 8192
+    return in_blocks(_size_block, is_gas, w, p1, p2, t1, rho1, pv, pc, mu, molar_mass, k, d, d1, d2, fl, xt, fd)
 
 
 def _size_block(is_gas, w, p1, p2, t1, rho1, pv, pc, mu, molar_mass, k, d, d1, d2, fl, xt, fd):
