@@ -102,13 +102,14 @@ def gas_levels(cases, an, stp, wall, wall_note):
     sonic = computed & (mach >= 1.0)
     outlet_note[sonic] = outlet_note[sonic] + [f"; valve outlet Mach {m:.2f}: the outlet is choked and the expansion finishes in the "
                           "pipe, at the edge of the method (clause 7's velocity limits applied)" for m in mach[sonic]]
-    note = np.select(
-        [gas & ~dry, gas & ~has_k, run & ~computed, computed],
-        ["the outlet is not a dry gas (it condenses, or has no speed of sound): IEC 60534-8-3 covers "
-         "single-phase dry gases only, so no level is predicted",
-         "no ratio of specific heats k for this gas (give column k)",
-         "the gas noise method gave no finite level for these inputs",
-         "IEC 60534-8-3, regime " + regime_name + outlet_note + wall_note], "")
+    # The first reason that applies, as np.select would pick it (assigned last), in an object array:
+    # np.select would widen every sentence to a fixed-width text array per case.
+    note = np.full(len(cases), "", dtype=object)
+    note[computed] = "IEC 60534-8-3, regime " + regime_name[computed] + outlet_note[computed] + wall_note[computed]
+    note[run & ~computed] = "the gas noise method gave no finite level for these inputs"
+    note[gas & ~has_k] = "no ratio of specific heats k for this gas (give column k)"
+    note[gas & ~dry] = ("the outlet is not a dry gas (it condenses, or has no speed of sound): IEC 60534-8-3 "
+                        "covers single-phase dry gases only, so no level is predicted")
     return level, note
 
 
