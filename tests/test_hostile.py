@@ -155,6 +155,21 @@ def test_neutralise(value, expected):
     assert neutralise(value) == expected
 
 
+def test_text_columns_neutralised_as_cell_by_cell():
+    """A pandas text column's fast path (a regular expression finds the risky cells) gives the cells
+    the per-cell rule above gives; missing text is an empty cell."""
+    import pandas as pd
+
+    from audit.io import outputs
+
+    values = ["=1+2", "+A1", "-cmd", "@x", "\t=1", "\r=1", "a\r\n=1+1", "x\ny", "plain", "", None, "x=1", " =1",
+              "é@", "==", "1-2"]
+    column = pd.Series(values, dtype="str")
+    assert isinstance(column.dtype, pd.StringDtype)   # the fast path is the one tested
+    expected = ["" if v is None else neutralise(v) for v in values]
+    assert outputs._cells(column) == expected
+
+
 def test_xlsx_formulas_are_not_evaluated(tmp_path):
     # A formula cell is read as the value the spreadsheet stored (none here: never calculated),
     # never evaluated by us: the row is rejected for a blank value, not audited with a made-up one.

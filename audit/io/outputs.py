@@ -150,7 +150,15 @@ def _cells(series: pd.Series) -> list:
         return np.where(series.to_numpy(bool), "true", "false").tolist()
     if pd.api.types.is_numeric_dtype(dtype):
         return series.tolist()
+    if isinstance(dtype, pd.StringDtype):  # pandas' text columns: only the few risky cells through neutralise
+        out = series.to_numpy(dtype=object, na_value="").tolist()
+        for i in np.flatnonzero(series.str.contains(_RISKY, regex=True, na=False).to_numpy(bool)).tolist():
+            out[i] = neutralise(out[i])
+        return out
     return [_text_cell(v) for v in series.to_numpy(dtype=object).tolist()]
+
+
+_RISKY = r"^[=+\-@\t\r]|[\r\n]"  # the cells neutralise changes: a formula start, or a line break anywhere
 
 
 def _text_cell(v):
