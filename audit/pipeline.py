@@ -168,7 +168,6 @@ def _read_previous(folder: Path):
 
 def _write_outputs(out: Path, audit: Audit, meta: dict, formats: set[str], progress, planner=None) -> list[str]:
     """Every chosen output, staged and then published at once; returns the names written."""
-    release_free_memory()
     with staged_folder(out) as stage:
         with progress.stage("Writing the CSV outputs"):
             write_csvs(stage, audit)
