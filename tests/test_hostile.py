@@ -7,6 +7,8 @@ import csv
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from openpyxl import Workbook
 
 from audit.engine import Options, compute
@@ -167,7 +169,79 @@ def test_text_columns_neutralised_as_cell_by_cell():
     column = pd.Series(values, dtype="str")
     assert isinstance(column.dtype, pd.StringDtype)   # the fast path is the one tested
     expected = ["" if v is None else neutralise(v) for v in values]
-    assert outputs._cells(column) == expected
+    assert outputs.to_csv_text(pd.DataFrame({"c": column})) == _csv_module_text({"c": expected})
+
+
+def _csv_module_text(columns: dict) -> str:
+    """The reference: Python's csv module (minimal quoting, '\\n' line ends), floats as format(v, '.6g')."""
+    import csv
+    import io
+
+    def cell(v):
+        if isinstance(v, float):
+            return "" if v != v else format(v, ".6g")
+        if isinstance(v, bool):
+            return "true" if v else "false"
+        return v
+
+    buf = io.StringIO()
+    writer = csv.writer(buf, lineterminator="\n")
+    writer.writerow(list(columns))
+    writer.writerows(zip(*([cell(v) for v in values] for values in columns.values())))
+    return buf.getvalue()
+
+
+def test_to_csv_text_one_column_with_missing_numbers():
+    """A row of one empty cell is written '""' by the csv module (a blank line would be no row)."""
+    import pandas as pd
+
+    from audit.io import outputs
+
+    values = [1.0, float("nan"), -0.0, 1234567.0]
+    assert outputs.to_csv_text(pd.DataFrame({"c": values})) == _csv_module_text({"c": values}) == 'c\n1\n""\n-0\n1.23457e+06\n'
+
+
+_FLOATS = st.floats(allow_nan=True, allow_infinity=True) | st.sampled_from([0.0, -0.0, 1e-5, 123456.5, 999999.5])
+_TEXTS = st.text(alphabet=st.sampled_from(list('ab ,"%=+-@\t\r\n\'é1.')), max_size=8)
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.data())
+def test_to_csv_text_matches_the_csv_module(data):
+    """Each row is one line template filled by '%' (floats by '%.6g', a missing float by '%.0s'), one
+    template per pattern of missing floats; the text must be what the csv module writes from cells
+    formatted one by one.  Blocks of 3 rows, so patterns differ between blocks too."""
+    import pandas as pd
+
+    from audit.io import outputs
+
+    rows = data.draw(st.integers(0, 9))
+    kinds = data.draw(st.lists(st.sampled_from(["float", "bool", "int", "str", "object"]), min_size=1, max_size=6))
+    columns, expected = {}, {}
+    for k, kind in enumerate(kinds):
+        name = f"c{k}%s"  # a '%' in a name must not reach a line template
+        if kind == "float":
+            values = data.draw(st.lists(_FLOATS, min_size=rows, max_size=rows))
+            columns[name], expected[name] = pd.Series(values, dtype=float), values
+        elif kind == "bool":
+            values = data.draw(st.lists(st.booleans(), min_size=rows, max_size=rows))
+            columns[name], expected[name] = pd.Series(values, dtype=bool), values
+        elif kind == "int":
+            values = data.draw(st.lists(st.integers(-10**12, 10**12), min_size=rows, max_size=rows))
+            columns[name], expected[name] = pd.Series(values, dtype="int64"), values
+        else:
+            values = data.draw(st.lists(_TEXTS | st.none(), min_size=rows, max_size=rows))
+            dtype = "str" if kind == "str" else object
+            columns[name] = pd.Series(values, dtype=dtype)
+            expected[name] = ["" if v is None else neutralise(v) for v in values]
+    frame = pd.DataFrame(columns)
+    old_block = outputs.CSV_BLOCK_ROWS
+    outputs.CSV_BLOCK_ROWS = 3
+    try:
+        text = outputs.to_csv_text(frame)
+    finally:
+        outputs.CSV_BLOCK_ROWS = old_block
+    assert text == _csv_module_text(expected)
 
 
 def test_xlsx_formulas_are_not_evaluated(tmp_path):

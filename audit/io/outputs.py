@@ -83,9 +83,11 @@ def results_table(cases: pd.DataFrame) -> pd.DataFrame:
     return out[RESULTS_COLUMNS + EXTRA_RESULTS]
 
 
-def _join_notes(*columns: pd.Series) -> list[str]:
+def _join_notes(*columns) -> list[str]:
     """Per case, the non-blank notes of the given columns joined by '; '."""
-    return ["; ".join(x for x in row if isinstance(x, str) and x) for row in zip(*columns)]
+    lists = [column.to_numpy(dtype=object).tolist() if isinstance(column, pd.Series) else column
+             for column in columns]  # plain lists: iterating pandas' text arrays costs a call per cell
+    return ["; ".join(x for x in row if isinstance(x, str) and x) for row in zip(*lists)]
 
 
 def write_csv(path: Path, frame: pd.DataFrame) -> None:
@@ -132,38 +134,85 @@ def _write_header(fh, frame: pd.DataFrame) -> None:
 
 
 def _write_rows(fh, frame: pd.DataFrame, start: int, stop: int) -> None:
-    writer = csv.writer(fh, lineterminator="\n")
     for first in range(start, stop, CSV_BLOCK_ROWS):  # a block at a time: few cell strings alive at once
-        part = frame.iloc[first:min(first + CSV_BLOCK_ROWS, stop)]
-        writer.writerows(zip(*(_cells(part[c]) for c in part.columns)))
+        fh.write(_block_text(frame.iloc[first:min(first + CSV_BLOCK_ROWS, stop)]))
 
 
 PART_MIN_ROWS = 20_000  # rows a worker formats at least: a fork costs some 20 ms, a row of results.csv 20 us
 CSV_BLOCK_ROWS = 2000
 
 
+def _block_text(block: pd.DataFrame) -> str:
+    """The CSV lines of a block of rows, as Python's csv module writes them (minimal quoting, '\\n').
+
+    Each row is one ``%`` formatting of a line template, so the numbers are formatted in C without
+    a string object per cell: floats with ``%.6g``, and a missing float with ``%.0s`` (nothing).
+    A template is made for each pattern of missing floats found in the block (a few dozen).
+    """
+    specs, values, missing = [], [], []
+    for name in block.columns:
+        series = block[name]
+        if pd.api.types.is_float_dtype(series.dtype):
+            numbers = series.to_numpy(float)
+            missing.append(np.isnan(numbers))
+            specs.append(None)
+            values.append(numbers.tolist())
+        else:
+            specs.append("%s")
+            values.append(_cells(series))
+    patterns, which = _missing_patterns(missing, len(block))
+    empty = "%.0s"
+    if len(specs) == 1:  # the csv module writes a row of one empty cell as "" (else it would be a blank line)
+        empty = '""%.0s'
+        values[0] = ['""' if cell == "" else cell for cell in values[0]]
+    templates = []
+    for pattern in patterns:
+        gaps = iter(pattern)
+        templates.append(",".join(spec or (empty if next(gaps) else "%.6g") for spec in specs) + "\n")
+    return "".join([templates[k] % row for k, row in zip(which, zip(*values))])
+
+
+def _missing_patterns(missing: list[np.ndarray], rows: int) -> tuple[list[list[bool]], list[int]]:
+    """The distinct rows of the missing-float matrix, and each row's index among them."""
+    if not missing:
+        return [[]], [0] * rows
+    bits = np.ascontiguousarray(np.packbits(np.column_stack(missing), axis=1))
+    keys, which = np.unique(bits.view(f"V{bits.shape[1]}").ravel(), return_inverse=True)
+    patterns = np.unpackbits(keys.view(np.uint8).reshape(len(keys), -1), axis=1, count=len(missing))
+    return patterns.astype(bool).tolist(), which.ravel().tolist()
+
+
 def _cells(series: pd.Series) -> list:
+    """The cells of a column that is not float, as final CSV text (quoted where the csv module quotes)."""
     dtype = series.dtype
-    if pd.api.types.is_float_dtype(dtype):
-        return [f"{v:.6g}" if v == v else "" for v in series.to_numpy(float).tolist()]
     if pd.api.types.is_bool_dtype(dtype):
         return np.where(series.to_numpy(bool), "true", "false").tolist()
     if pd.api.types.is_numeric_dtype(dtype):
         return series.tolist()
-    if isinstance(dtype, pd.StringDtype):  # pandas' text columns: only the few risky cells through neutralise
+    if isinstance(dtype, pd.StringDtype):  # pandas' text columns: only the few risky cells one by one
         out = series.to_numpy(dtype=object, na_value="").tolist()
         for i in np.flatnonzero(series.str.contains(_RISKY, regex=True, na=False).to_numpy(bool)).tolist():
             out[i] = neutralise(out[i])
+        for i in np.flatnonzero(series.str.contains(_QUOTED, regex=True, na=False).to_numpy(bool)).tolist():
+            out[i] = _quote(out[i])
         return out
     return [_text_cell(v) for v in series.to_numpy(dtype=object).tolist()]
 
 
 _RISKY = r"^[=+\-@\t\r]|[\r\n]"  # the cells neutralise changes: a formula start, or a line break anywhere
+# The cells Python's csv module quotes (minimal quoting, ',' between cells, '\n' at the end of a row): a
+# comma, a double quote or a line break; neutralise has left no line break.
+_QUOTED = r'[",]'
+
+
+def _quote(text: str) -> str:
+    return '"' + text.replace('"', '""') + '"'
 
 
 def _text_cell(v):
     if isinstance(v, str):
-        return neutralise(v)
+        v = neutralise(v)
+        return _quote(v) if ('"' in v or "," in v) else v
     if v is True or v is False:
         return "true" if v else "false"
     if v is None or (isinstance(v, float) and v != v):
