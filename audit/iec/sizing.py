@@ -163,6 +163,13 @@ class _Case:
         self.x = self.dp / self.p1
         self.rho_rel = self.rho1 / RHO_WATER_15C
 
+    def subset(self, mask: np.ndarray) -> "_Case":
+        """The same prepared arrays for the cases where ``mask`` holds (a scalar input stands for every case)."""
+        part = object.__new__(_Case)
+        for name, value in vars(self).items():
+            setattr(part, name, np.broadcast_to(value, mask.shape)[mask])
+        return part
+
 
 def _evaluate(case: _Case, c):
     """Everything the standard computes at trial coefficient ``c`` [Kv]."""
@@ -196,31 +203,121 @@ def _smallest_sufficient_c(case: _Case):
 
     FP, FLP, xTP and FR depend on C itself.  Plain fixed-point iteration
     diverges in laminar flow (C*FR(C) falls as C grows for full-size trims)
-    and crawls with large reducers, so we bracket the root on a geometric
-    grid and bisect it, which converges for every case the standard admits
-    and tells cleanly which cases no C can meet.
+    and crawls with large reducers, so the root is first bracketed on a
+    geometric grid, which tells cleanly which cases no C can meet, and then
+    narrowed to a bracket [lo, hi] at most ``_TIGHT`` wide in log C (hi
+    sufficient, lo not).
+
+    Where the crossing is provably the only one in the grid's bracket, secant
+    steps find it in a few evaluations (``_narrow``): turbulent flow all
+    through the bracket (Rev >= 10,000 at its top; Rev falls as C grows) and,
+    for a gas, the same choked state at both ends (x_choked = F_gamma xTP is
+    monotonic in C, so the state switches at most once).  There C_required/C
+    falls as C grows (clauses 6 to 8: 1/(C FP) and 1/(C FLP) fall), so
+    C_required(C) - C changes sign once.  Elsewhere (non-turbulent flow, or a
+    gas whose choked state switches inside the bracket, where Y jumps and
+    C_required may cross C more than once) the bracket is bisected, which
+    finds the crossing the plain method always found.
     """
     n = case.w.size
     start = _evaluate(case, np.full(n, 1e-12))["c_req"]  # no piping, turbulent
     start = np.where(np.isfinite(start) & (start > 0), start, np.nan) * 0.25
-    hi = np.full(n, np.nan)
-    lo = np.full(n, np.nan)
+    hi, lo = np.full(n, np.nan), np.full(n, np.nan)
+    excess_hi, excess_lo = np.full(n, np.nan), np.full(n, np.nan)
+    turbulent_hi = np.zeros(n, bool)
+    choked_hi, choked_lo = np.zeros(n, bool), np.ones(n, bool)
     trial = start.copy()
-    previous = start / _GRID_RATIO
+    previous, excess_previous = start / _GRID_RATIO, np.full(n, np.nan)
+    choked_previous = np.full(n, np.nan)  # NaN: not evaluated (the grid's first point below)
     for _ in range(_GRID_POINTS):
-        ok = _evaluate(case, trial)["c_req"] <= trial
+        ok, excess, turbulent, choked = _sufficient(case, trial)
         new = ok & np.isnan(hi)
         hi[new], lo[new] = trial[new], previous[new]
+        excess_hi[new], excess_lo[new] = excess[new], excess_previous[new]
+        turbulent_hi[new], choked_hi[new] = turbulent[new], choked[new]
+        choked_lo[new] = choked_previous[new] == 1.0
         if not np.isnan(hi[np.isfinite(start)]).any():
             break
-        previous, trial = trial, trial * _GRID_RATIO
+        previous, excess_previous, trial = trial, excess, trial * _GRID_RATIO
+        choked_previous = choked.astype(float)
     found = np.isfinite(hi)
-    for _ in range(_BISECTIONS):
-        mid = np.sqrt(lo * hi)
-        ok = _evaluate(case, mid)["c_req"] <= mid
-        hi = np.where(found & ok, mid, hi)
-        lo = np.where(found & ~ok, mid, lo)
-    return hi, lo, found
+    with np.errstate(divide="ignore", invalid="ignore"):
+        x_lo, x_hi = np.log(lo), np.log(hi)
+    single = found & np.isfinite(excess_lo) & turbulent_hi & (~case.gas | (choked_hi == choked_lo))
+    if single.any():
+        x_lo[single], x_hi[single] = _narrow(case.subset(single), x_lo[single], x_hi[single], excess_lo[single],
+                                             excess_hi[single])
+    open_ = found & (x_hi - x_lo > _TIGHT)
+    if open_.any():
+        x_lo[open_], x_hi[open_] = _bisect(case.subset(open_), x_lo[open_], x_hi[open_])
+    return np.exp(x_hi), np.exp(x_lo), found
+
+
+_SECANT_STEPS = 12      # secant steps before a case still open is bisected
+_TIGHT = 4e-13          # final bracket width in log C (40 bisections of a 1.5 ratio: 3.7e-13)
+
+
+def _sufficient(case: _Case, c):
+    """Per case at trial ``c``: C_required <= c, log(C_required / c), turbulent (Rev >= 10,000), choked (gas)."""
+    at = _evaluate(case, c)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return at["c_req"] <= c, np.log(at["c_req"] / c), at["rev"] >= 1.0e4, case.x >= at["x_choked"]
+
+
+def _narrow(case: _Case, x_lo, x_hi, f_lo, f_hi):
+    """Narrow each bracket [x_lo, x_hi] of log C (f = log(C_required/C): > 0 at x_lo, <= 0 at x_hi).
+
+    A secant step through the last two points evaluated where it falls inside the bracket, else
+    regula falsi between the ends (Illinois: the end that stays has its f halved), else the
+    midpoint; a point within half the final width of an end is moved out to that distance, so
+    once the root is found the bracket closes on it.  Cases still open when fewer than half remain are carried on by themselves.
+    """
+    out_lo, out_hi = x_lo.copy(), x_hi.copy()
+    at = np.arange(x_lo.size)
+    x_lo, x_hi, f_lo, f_hi = x_lo.copy(), x_hi.copy(), f_lo.copy(), f_hi.copy()
+    x_a, f_a, x_b, f_b = x_hi.copy(), f_hi.copy(), x_lo.copy(), f_lo.copy()  # the last two points
+    side = np.zeros(x_lo.size, dtype=np.int8)  # which end the last step replaced: -1 lo, +1 hi
+    for _ in range(_SECANT_STEPS):
+        open_ = x_hi - x_lo > _TIGHT
+        out_lo[at], out_hi[at] = x_lo, x_hi
+        if not open_.any():
+            break
+        if open_.mean() < 0.5:  # carry on with the open cases only
+            case, at = case.subset(open_), at[open_]
+            x_lo, x_hi, f_lo, f_hi, x_a, f_a, x_b, f_b, side, open_ = (
+                v[open_] for v in (x_lo, x_hi, f_lo, f_hi, x_a, f_a, x_b, f_b, side, open_))
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            secant = x_a - f_a * (x_a - x_b) / (f_a - f_b)
+            falsi = x_hi - f_hi * (x_hi - x_lo) / (f_hi - f_lo)
+        inside = lambda x: np.isfinite(x) & (x >= x_lo) & (x <= x_hi)  # noqa: E731
+        x = np.where(inside(secant), secant, np.where(inside(falsi), falsi, 0.5 * (x_lo + x_hi)))
+        # A point within half the final width of an end moves to that distance: the bracket then closes.
+        x = np.clip(x, x_lo + 0.5 * _TIGHT, x_hi - 0.5 * _TIGHT)
+        x = np.where(open_, x, x_hi)
+        ok, f, _, _ = _sufficient(case, np.exp(x))
+        to_hi, to_lo = open_ & ok, open_ & ~ok
+        f_lo = np.where(to_hi & (side == 1), 0.5 * f_lo, f_lo)
+        f_hi = np.where(to_lo & (side == -1), 0.5 * f_hi, f_hi)
+        x_hi, f_hi = np.where(to_hi, x, x_hi), np.where(to_hi, f, f_hi)
+        x_lo, f_lo = np.where(to_lo, x, x_lo), np.where(to_lo, f, f_lo)
+        side = np.where(to_hi, 1, np.where(to_lo, -1, side)).astype(np.int8)
+        x_b, f_b = np.where(open_, x_a, x_b), np.where(open_, f_a, f_b)
+        x_a, f_a = np.where(open_, x, x_a), np.where(open_, f, f_a)
+    out_lo[at], out_hi[at] = x_lo, x_hi
+    return out_lo, out_hi
+
+
+def _bisect(case: _Case, x_lo, x_hi):
+    """Bisect [x_lo, x_hi] (log C) until at most ``_TIGHT`` wide; hi stays sufficient."""
+    for _ in range(_BISECTIONS + 20):
+        wide = x_hi - x_lo > _TIGHT
+        if not wide.any():
+            break
+        mid = 0.5 * (x_lo + x_hi)
+        ok = _sufficient(case, np.exp(mid))[0]
+        x_hi = np.where(wide & ok, mid, x_hi)
+        x_lo = np.where(wide & ~ok, mid, x_lo)
+    return x_lo, x_hi
 
 
 def size_valves(is_gas, w, p1, p2, t1, rho1, pv, pc, mu, molar_mass, k, d, d1, d2, fl, xt, fd):
