@@ -91,7 +91,8 @@ def apply_rules(cases: pd.DataFrame, overrides: dict | None = None, only: tuple[
     if not graded:
         return combine(*found)
     allf = adjust_for_service(combine(*found), cases, thresholds)
-    allf["family"] = [family_of(c) for c in allf["code"]]
+    codes = allf["code"].to_numpy(dtype=object)
+    allf["family"] = pd.Series(codes).map({c: family_of(c) for c in set(codes.tolist())}).to_numpy(dtype=object)
     ordered = allf.sort_values(["case_row", "severity"], ascending=[True, False], kind="stable")
     per_case: dict[int, dict[str, None]] = {}
     for row, code in zip(ordered["case_row"].tolist(), ordered["code"].tolist()):

@@ -181,7 +181,10 @@ def adjust_for_service(found: pd.DataFrame, cases: pd.DataFrame, thresholds: dic
     gain = code == "GAIN"
     sev = np.where(gain, int(thresholds["controllability"]["gain_severity"]), sev)
     out["severity"] = sev
-    out["sentence"] = [s if not n else f"{s} (Graded {n}.)" for s, n in zip(out["sentence"], note)]
+    sentence = out["sentence"].to_numpy(dtype=object).copy()
+    for i in np.flatnonzero(note != "").tolist():  # only the moved findings' sentences are rewritten
+        sentence[i] = f"{sentence[i]} (Graded {note[i]}.)"
+    out["sentence"] = sentence
     return out
 
 
