@@ -54,8 +54,7 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     limits = limits or Limits()
     raw = read_source(path, sheet, limits, is_known=is_known_column, is_unit=is_unit_text)
     table, units, ignored, row_numbers, early = _columns(raw)
-    blank = table.apply(lambda col: col.astype(str).str.strip() == "").all(axis=1).to_numpy() \
-        if len(table.columns) else np.ones(len(table), dtype=bool)
+    blank = _blank_rows(table)
     table = table.loc[~blank].reset_index(drop=True)
     row_numbers = row_numbers[~blank]
     early = [e for e, b in zip(early, blank) if not b]
@@ -64,7 +63,7 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     for i, why in enumerate(early):
         for message in why:
             reasons.note(i, message)
-    for col in table.columns:
+    for col in table.columns if raw.uncached else ():  # only a workbook's formulas without stored values
         unknown = (table[col] == UNCACHED).to_numpy()
         if unknown.any():
             reasons.add(unknown, f"column '{col}': the cell holds a formula with no stored value (the workbook was "
@@ -234,6 +233,14 @@ def _mark_uncached(raw: RawTable, rows: list[list]) -> None:
     for number, col in raw.uncached:
         if number in at and col < len(rows[at[number]]):
             rows[at[number]][col] = UNCACHED
+
+
+def _blank_rows(table: pd.DataFrame) -> np.ndarray:
+    """Rows whose every known cell is empty or white space (a row's first filled cell ends its test)."""
+    columns = [table[c].to_numpy(dtype=object) for c in table.columns]
+    if not columns:
+        return np.ones(len(table), dtype=bool)
+    return np.fromiter((not any(_filled(v) for v in row) for row in zip(*columns)), dtype=bool, count=len(table))
 
 
 def _filled(cell) -> bool:
