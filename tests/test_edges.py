@@ -15,7 +15,7 @@ from CoolProp import AbstractState
 
 from audit.engine import compute
 from audit.io.loader import load_linelist
-from audit.fluid.properties import hem_sound_speed
+from audit.fluid.outlet import hem_sound_speed
 from conftest import ROOT, SAMPLE_CSV
 from helpers_linelist import audit_rows
 from rules.vibration import sound_power_level

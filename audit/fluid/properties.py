@@ -16,6 +16,7 @@ property the FF factor was built on; the result says so.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -234,7 +235,7 @@ def _safe_bubble(st: State, t: float) -> float:
 
 def _key_number(x: float) -> float:
     """A cache-key form of a number: rounded, with NaN as -1 (no inlet temperature or quality is -1)."""
-    return round(float(x), 6) if np.isfinite(x) else -1.0
+    return round(float(x), 6) if math.isfinite(x) else -1.0
 
 
 def empty_inlet(n: int) -> dict[str, np.ndarray]:
@@ -293,59 +294,47 @@ def inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray,
     n = len(fluids)
     quality = np.full(n, np.nan) if quality is None else np.asarray(quality, float)
     out = empty_inlet(n)
+    # Plain Python numbers in the loop and the results placed once at the end: numpy elements read or
+    # written one at a time cost more than the cache look-up.
+    p_list, t_list, q_list, phases = *(np.asarray(a, float).tolist() for a in (p, t, quality)), list(phase_given)
+    done, values_of = [], []
     for i in range(n):
         fluid = fluids[i]
-        if fluid is None or not np.isfinite(p[i]):
+        if fluid is None or not math.isfinite(p_list[i]):
             continue
         st = state_for(fluid, backend)
         # NaN (t_in 'sat', no quality) becomes a sentinel: NaN != NaN would make every such key a miss.
-        key = (round(float(p[i]), 3), _key_number(t[i]), phase_given[i], _key_number(quality[i]))
-        if key not in st.cache:
-            try:
-                st.cache[key] = _inlet_state(st, float(p[i]), float(t[i]), phase_given[i], float(quality[i]))
-            except StateError as exc:
-                st.cache[key] = str(exc)
-            except ValueError as exc:
-                if backend != "HEOS":  # outside a tabular backend's range: the full equation of state
-                    full = inlet_properties([fluid], p[i:i + 1], t[i:i + 1], phase_given[i:i + 1], "HEOS",
-                                            quality[i:i + 1])
-                    st.cache[key] = full["error"][0] or (
-                        tuple(full[name][0] for name in INLET_FIELDS), full["phase"][0], full["note"][0])
-                else:
-                    st.cache[key] = (
-                        f"CoolProp could not evaluate {'&'.join(fluid.components)} at {p[i] / 1e5:.4g} bar(a) and "
-                        f"{t[i] - 273.15:.4g} degC ({str(exc)[:120]})")
-        value = st.cache[key]
+        key = (round(p_list[i], 3), _key_number(t_list[i]), phases[i], _key_number(q_list[i]))
+        value = st.cache.get(key)
+        if value is None:
+            value = st.cache[key] = _inlet_value(st, fluid, backend, p_list[i], t_list[i], phases[i], q_list[i])
         if isinstance(value, str):
             out["error"][i] = value
-            continue
-        values, out["phase"][i], out["note"][i] = value
-        for name, v in zip(INLET_FIELDS, values):
-            out[name][i] = v
+        else:
+            done.append(i)
+            values_of.append(value)
+    if done:
+        out["phase"][done], out["note"][done] = [v[1] for v in values_of], [v[2] for v in values_of]
+        numbers = np.array([v[0] for v in values_of], dtype=float).reshape(len(done), len(INLET_FIELDS))
+        for k, name in enumerate(INLET_FIELDS):
+            out[name][done] = numbers[:, k]
     return out
 
 
-HEM_STEP = 0.005  # relative pressure step of the central difference along the isentrope
-
-
-def hem_sound_speed(state: AbstractState, p: float, s: float) -> float:
-    """Homogeneous-equilibrium speed of sound [m/s] of a two-phase mixture: sqrt((dp/drho) at constant s).
-
-    state: a CoolProp AbstractState of the fluid (left at the upper point); p [Pa], s [J/kg/K]
-    of the mixture.  A central difference of +-0.5 % in pressure along the isentrope, each
-    point a (p, s) flash: phases in equilibrium at every point (HEM, the homogeneous
-    equilibrium model).  Its error is second order in the step, well under 0.1 % inside the
-    dome (checked against iapws in tests/test_two_phase_outlet.py).  NaN where a flash fails.
-    """
+def _inlet_value(st: State, fluid: Fluid, backend: str, p: float, t: float, phase_given: str, quality: float):
+    """One inlet state for the cache: (INLET_FIELDS values, phase, note), or the reason it has none."""
     try:
-        state.update(CP.PSmass_INPUTS, p * (1.0 - HEM_STEP), s)
-        rho_low = state.rhomass()
-        state.update(CP.PSmass_INPUTS, p * (1.0 + HEM_STEP), s)
-        rho_high = state.rhomass()
-    except ValueError:
-        return float("nan")
-    d_rho = rho_high - rho_low
-    return float(np.sqrt(2.0 * HEM_STEP * p / d_rho)) if d_rho > 0 else float("nan")
+        return _inlet_state(st, p, t, phase_given, quality)
+    except StateError as exc:
+        return str(exc)
+    except ValueError as exc:
+        if backend != "HEOS":  # outside a tabular backend's range: the full equation of state
+            full = inlet_properties([fluid], np.array([p]), np.array([t]), np.array([phase_given], dtype=object),
+                                    "HEOS", np.array([quality]))
+            return full["error"][0] or (tuple(full[name][0] for name in INLET_FIELDS), full["phase"][0],
+                                        full["note"][0])
+        return (f"CoolProp could not evaluate {'&'.join(fluid.components)} at {p / 1e5:.4g} bar(a) and "
+                f"{t - 273.15:.4g} degC ({str(exc)[:120]})")
 
 
 def ideal_gas_density(p, t, molar_mass, z):
