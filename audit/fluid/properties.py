@@ -6,9 +6,10 @@ per distinct (p, T) and shared by the cases that repeat them, which matters
 for mixtures, whose flash costs milliseconds.  Results are SI arrays.
 
 Phase at the inlet is decided against the saturation curve (pure fluids)
-or from the flash's vapour quality (mixtures).  A state within 0.5 % of the
-saturation pressure is a saturated (two-phase) inlet: it is refused unless
-the row's `phase` column says which side it is on.
+or from the flash's vapour quality (mixtures).  A pure fluid within
+SATURATION_TOLERANCE_K of its saturation temperature is audited as
+saturated, on the side the row's `phase` column (or its temperature) says,
+with a note; a mixture's two-phase inlet is refused.
 
 Mixture critical pressure uses Kay's rule (mole-fraction weighted
 pseudo-critical pressure) because a mixture's true critical point is not a
