@@ -198,7 +198,8 @@ def test_to_csv_text_one_column_with_missing_numbers():
     from audit.io import outputs
 
     values = [1.0, float("nan"), -0.0, 1234567.0]
-    assert outputs.to_csv_text(pd.DataFrame({"c": values})) == _csv_module_text({"c": values}) == 'c\n1\n""\n-0\n1.23457e+06\n'
+    expected = 'c\n1\n""\n-0\n1.23457e+06\n'
+    assert outputs.to_csv_text(pd.DataFrame({"c": values})) == _csv_module_text({"c": values}) == expected
 
 
 _FLOATS = st.floats(allow_nan=True, allow_infinity=True) | st.sampled_from([0.0, -0.0, 1e-5, 123456.5, 999999.5])

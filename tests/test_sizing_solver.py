@@ -28,7 +28,7 @@ def _random_cases(n=6000, seed=7):
 
 
 def _grid_and_bisection(case):
-    """The replaced method: bracket on a 1.5 geometric grid from a quarter of the turbulent estimate, bisect 40 times."""
+    """The replaced method: a 1.5 geometric grid from a quarter of the turbulent estimate, then 40 bisections."""
     n = case.w.size
     start = sizing._evaluate(case, np.full(n, 1e-12))["c_req"]
     start = np.where(np.isfinite(start) & (start > 0), start, np.nan) * 0.25

@@ -270,7 +270,8 @@ def _narrow(case: _Case, x_lo, x_hi, f_lo, f_hi):
     A secant step through the last two points evaluated where it falls inside the bracket, else
     regula falsi between the ends (Illinois: the end that stays has its f halved), else the
     midpoint; a point within half the final width of an end is moved out to that distance, so
-    once the root is found the bracket closes on it.  Cases still open when fewer than half remain are carried on by themselves.
+    once the root is found the bracket closes on it.  Cases still open when fewer than half remain
+    are carried on by themselves.
     """
     out_lo, out_hi = x_lo.copy(), x_hi.copy()
     at = np.arange(x_lo.size)
