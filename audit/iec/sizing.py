@@ -273,8 +273,7 @@ def _narrow(case: _Case, x_lo, x_hi, f_lo, f_hi):
     once the root is found the bracket closes on it.  Cases still open when fewer than half remain
     are carried on by themselves.
     """
-    out_lo, out_hi = x_lo.copy(), x_hi.copy()
-    at = np.arange(x_lo.size)
+    out_lo, out_hi, at = x_lo.copy(), x_hi.copy(), np.arange(x_lo.size)
     x_lo, x_hi, f_lo, f_hi = x_lo.copy(), x_hi.copy(), f_lo.copy(), f_hi.copy()
     x_a, f_a, x_b, f_b = x_hi.copy(), f_hi.copy(), x_lo.copy(), f_lo.copy()  # the last two points
     side = np.zeros(x_lo.size, dtype=np.int8)  # which end the last step replaced: -1 lo, +1 hi
