@@ -1,5 +1,7 @@
 """Unit handling: the same valve in SI, US customary and gauge units gives the same results."""
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from audit.engine import compute
 from audit.io.loader import load_linelist
@@ -62,3 +64,22 @@ def test_units_are_converted_by_pint_factors():
     rule = unit_rule("degF", "temperature")
     assert rule.offset == pytest.approx(255.372, rel=1e-5)
     assert unit_rule("furlong", "pressure") is None
+
+
+_CELL_CHARS = list("0123456789.eE+- ,/kgmhb%Pa\"'") + ["\u2212", "\u00a0", "DN", "NPS", "\u0663", "\t"]
+
+
+_NUMBER = st.from_regex(r"[0-9]{1,4}(\.[0-9]{0,3})?([eE][+-]?[0-9])?", fullmatch=True)
+_TAIL = st.lists(st.sampled_from(_CELL_CHARS + list("abcinsft")), max_size=6).map("".join)
+
+
+@settings(max_examples=600, deadline=None)
+@given(st.lists(st.sampled_from(_CELL_CHARS), max_size=10).map("".join)
+       | st.tuples(_NUMBER, _TAIL).map(" ".join))
+def test_split_number_fast_path_equals_the_general_rules(text):
+    """'number unit' cells take a shortcut past the translation, nominal, fraction and comma rules; it must
+    give what those rules give (the second strategy writes a number, a space and anything after it, around
+    the shortcut's edge; the first anything at all)."""
+    from audit.io.units import _split_number
+
+    assert split_number(text) == _split_number(text, False)

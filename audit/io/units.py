@@ -172,6 +172,22 @@ def split_number(text: str, decimal_comma: bool = False) -> tuple[float | None, 
     Nominal sizes read as lengths: 'DN80' (80 mm), 'NPS 3' and '3"' (3 in),
     '1-1/2 in' (1.5 in).
     """
+    if not decimal_comma:
+        plain = _NUMBER_SPACE_UNIT.fullmatch(text)
+        if plain:  # '1055.1 kg/h', the common cell: none of the cases below can apply to it
+            return float(plain.group(1)), plain.group(2), ""
+    return _split_number(text, decimal_comma)
+
+
+# An unsigned ASCII number, one space and a unit of printable ASCII starting with a letter, without
+# commas: no minus sign to translate, no nominal prefix, no fraction, no thousands or decimal comma.
+# Each part can match in one way only, so a long cell that fails is rejected in linear time.
+_NUMBER_SPACE_UNIT = re.compile(r"((?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)"
+                                r" ([A-Za-z][\x21-\x2b\x2d-\x7e]*)")
+
+
+def _split_number(text: str, decimal_comma: bool) -> tuple[float | None, str, str]:
+    """``split_number`` for any cell (see there)."""
     s = text.translate(_MINUS_SIGNS).strip()
     nominal = _nominal(s)
     if nominal:
