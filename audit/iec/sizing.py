@@ -224,22 +224,20 @@ def _smallest_sufficient_c(case: _Case):
     start = np.where(np.isfinite(start) & (start > 0), start, np.nan) * 0.25
     hi, lo = np.full(n, np.nan), np.full(n, np.nan)
     excess_hi, excess_lo = np.full(n, np.nan), np.full(n, np.nan)
-    turbulent_hi = np.zeros(n, bool)
-    choked_hi, choked_lo = np.zeros(n, bool), np.ones(n, bool)
+    turbulent_hi, choked_hi, choked_lo = np.zeros(n, bool), np.zeros(n, bool), np.zeros(n, bool)
     trial = start.copy()
-    previous, excess_previous = start / _GRID_RATIO, np.full(n, np.nan)
-    choked_previous = np.full(n, np.nan)  # NaN: not evaluated (the grid's first point below)
+    # The point below the grid's first is not evaluated: its NaN excess keeps such a case out of ``single``.
+    previous, excess_previous, choked_previous = start / _GRID_RATIO, np.full(n, np.nan), np.zeros(n, bool)
     for _ in range(_GRID_POINTS):
         ok, excess, turbulent, choked = _sufficient(case, trial)
         new = ok & np.isnan(hi)
         hi[new], lo[new] = trial[new], previous[new]
         excess_hi[new], excess_lo[new] = excess[new], excess_previous[new]
         turbulent_hi[new], choked_hi[new] = turbulent[new], choked[new]
-        choked_lo[new] = choked_previous[new] == 1.0
+        choked_lo[new] = choked_previous[new]
         if not np.isnan(hi[np.isfinite(start)]).any():
             break
-        previous, excess_previous, trial = trial, excess, trial * _GRID_RATIO
-        choked_previous = choked.astype(float)
+        previous, excess_previous, choked_previous, trial = trial, excess, choked, trial * _GRID_RATIO
     found = np.isfinite(hi)
     with np.errstate(divide="ignore", invalid="ignore"):
         x_lo, x_hi = np.log(lo), np.log(hi)
@@ -279,10 +277,10 @@ def _narrow(case: _Case, x_lo, x_hi, f_lo, f_hi):
     side = np.zeros(x_lo.size, dtype=np.int8)  # which end the last step replaced: -1 lo, +1 hi
     for _ in range(_SECANT_STEPS):
         open_ = x_hi - x_lo > _TIGHT
-        out_lo[at], out_hi[at] = x_lo, x_hi
         if not open_.any():
             break
         if open_.mean() < 0.5:  # carry on with the open cases only
+            out_lo[at], out_hi[at] = x_lo, x_hi
             case, at = case.subset(open_), at[open_]
             x_lo, x_hi, f_lo, f_hi, x_a, f_a, x_b, f_b, side, open_ = (
                 v[open_] for v in (x_lo, x_hi, f_lo, f_hi, x_a, f_a, x_b, f_b, side, open_))
@@ -309,7 +307,7 @@ def _narrow(case: _Case, x_lo, x_hi, f_lo, f_hi):
 
 def _bisect(case: _Case, x_lo, x_hi):
     """Bisect [x_lo, x_hi] (log C) until at most ``_TIGHT`` wide; hi stays sufficient."""
-    for _ in range(_BISECTIONS + 20):
+    for _ in range(_BISECTIONS + 20):  # 40 close the grid's 1.5 ratio to _TIGHT; the rest is a margin
         wide = x_hi - x_lo > _TIGHT
         if not wide.any():
             break
