@@ -1,7 +1,7 @@
 """Array models evaluated a block of cases at a time.
 
 The models here compute each case on its own, with many temporaries per case (the sizing's search
-evaluates its equations some 47 times; the gas noise method keeps a spectrum of bands per case).
+evaluates its equations a dozen times or more; the gas noise method keeps a spectrum of bands per case).
 Over a whole list at once those temporaries leave the processor's cache and grow the heap with the
 list (at 600,000 cases, hundreds of MB); a block of ``BLOCK`` cases keeps both bounded.  Each case
 is computed on its own, so the blocks give the numbers of one pass (tests/test_engine_parts.py).
