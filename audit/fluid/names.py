@@ -9,12 +9,12 @@ import re
 from dataclasses import dataclass
 from functools import lru_cache
 
-import CoolProp.CoolProp as CP
-
 
 @lru_cache(maxsize=1)
 def known_fluids() -> list[str]:
     """CoolProp's pure-fluid names and aliases, for checks and suggestions."""
+    import CoolProp.CoolProp as CP  # here, not above: reading a line list needs no CoolProp (io.early)
+
     names = set(CP.get_global_param_string("FluidsList").split(","))
     for name in list(names):
         aliases = CP.get_fluid_param_string(name, "aliases")

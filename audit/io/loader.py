@@ -28,7 +28,7 @@ from audit.io.units import P_STD, is_unit_text, parse_column
 from audit.io.cases import read_cases
 from audit.io.columns import CASE_COLUMN, CASE_FIELDS, HISTORY_SIGNALS, NUMERIC, OVERRIDES, REQUIRED, TEXT, is_known_column, suggestion
 from audit.io.rows import (Reasons, check_bare_sizes, check_cell_length, check_fluids, check_identity, check_piping,
-                           check_plausible, check_range, check_service, check_valve, text_column)
+                           check_plausible, check_range, check_service, check_valve, resolve_fluids, text_column)
 
 
 @dataclass
@@ -42,6 +42,22 @@ class LineList:
     units: dict = field(default_factory=dict)  # the unit each column's header gave, by column name
 
 
+@dataclass
+class ReadLineList:
+    """A line list read and checked but for its fluid names (CoolProp's part): what ``read_linelist`` gives
+    ``finish_linelist``.  Holds no CoolProp object, so it can be read in another process (io.early)."""
+    valves: pd.DataFrame       # every data row, before the rejected ones leave
+    cases: pd.DataFrame
+    reasons: Reasons
+    fluid_names: list          # per row: the fluid name to resolve, or None
+    row_numbers: np.ndarray
+    tags: np.ndarray
+    unread: list               # row numbers with text only in unread columns
+    ignored: list
+    units: dict
+    source: RawTable           # without its cells
+
+
 def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: float = P_STD,
                   limits: Limits | None = None) -> LineList:
     """Read and validate a line list; see the module docstring for what comes back.
@@ -51,6 +67,13 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     no `p_atm`; limits: size limits of the input.
     Raises InputError only when the file as a whole cannot be read.
     """
+    return finish_linelist(read_linelist(path, sheet, p_atm, limits))
+
+
+def read_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: float = P_STD,
+                  limits: Limits | None = None) -> ReadLineList:
+    """The part of ``load_linelist`` that needs no CoolProp: every cell read, parsed and checked, the
+    fluid names kept to resolve (same arguments)."""
     limits = limits or Limits()
     raw = read_source(path, sheet, limits, is_known=is_known_column, is_unit=is_unit_text)
     table, units, ignored, row_numbers, early = _columns(raw)
@@ -94,7 +117,7 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     for c in ("tag", "area", "service"):
         valves[c] = text[c]
     check_identity(text["tag"], reasons)
-    fluids = check_fluids(text, num, reasons, valves)
+    fluid_names = check_fluids(text, num, reasons, valves)
     check_valve(text, num, reasons, valves)
     check_piping(text, num, reasons, valves)
     check_service(text, reasons, valves)
@@ -128,11 +151,20 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
         for i in np.flatnonzero(all_bad):
             rows = np.flatnonzero(valve_of == i)
             reasons.note(i, "; ".join(f"case {names[r]}: {errors[r]}" for r in rows if errors[r]))
+    # The cells are in the tables now; keeping them beside would hold every cell's text for the whole run.
+    source = replace(raw, rows=[], row_numbers=[])
+    return ReadLineList(valves, cases, reasons, fluid_names, row_numbers, text["tag"],
+                        list(getattr(raw, "unread_rows", [])), ignored, units, source)
 
+
+def finish_linelist(read: ReadLineList) -> LineList:
+    """Resolve the fluid names with CoolProp and set the rejected rows apart: ``load_linelist``'s end."""
+    reasons, row_numbers, cases, unread = read.reasons, read.row_numbers, read.cases, read.unread
+    fluids = resolve_fluids(read.fluid_names, reasons)
+    n = len(read.valves)
     bad = reasons.bad()
-    rejected = pd.DataFrame({"row": row_numbers[bad], "tag": text["tag"][bad],
+    rejected = pd.DataFrame({"row": row_numbers[bad], "tag": read.tags[bad],
                              "reason": [reasons.joined(i) for i in np.flatnonzero(bad)]})
-    unread = getattr(raw, "unread_rows", [])
     if unread:
         rejected = pd.concat([rejected, pd.DataFrame({
             "row": unread, "tag": "", "reason": "text only in columns the audit does not read; no tag and no data: "
@@ -141,15 +173,14 @@ def load_linelist(path: str | os.PathLike, sheet: str | None = None, p_atm: floa
     keep = np.flatnonzero(~bad)
     remap = -np.ones(n, dtype=int)
     remap[keep] = np.arange(len(keep))
-    valves = valves.iloc[keep].reset_index(drop=True)
+    valves = read.valves.iloc[keep].reset_index(drop=True)
     valves["fluid_obj"] = [fluids[i] for i in keep]
     if len(cases):
         cases = cases[~bad[cases["valve"].to_numpy()]].copy()
         cases["valve"] = remap[cases["valve"].to_numpy()]
         cases = cases.reset_index(drop=True)
-    # The cells are in the tables now; keeping them beside would hold every cell's text for the whole run.
-    source = replace(raw, rows=[], row_numbers=[])
-    return LineList(valves, cases, rejected, ignored, rows_total=n + len(unread), source=source, units=units)
+    return LineList(valves, cases, rejected, read.ignored, rows_total=n + len(unread), source=read.source,
+                    units=read.units)
 
 
 def _overridden(num: dict, custom: np.ndarray) -> np.ndarray:

@@ -9,7 +9,6 @@ import numpy as np
 import pandas as pd
 
 from audit.fluid.names import Fluid
-from audit.fluid.properties import resolve_fluid
 from audit.iec import styles
 from audit.iec.characteristic import CHARACTERISTICS, normalise_characteristic
 from audit.io import pipes
@@ -25,6 +24,7 @@ class Reasons:
     def __init__(self, n: int):
         self.text = [[] for _ in range(n)]
         self.rows = set()   # rows with at least one reason (most rows have none)
+        self.later = []     # (row, place in its reasons, key): a reason known only after the reading (settle)
 
     def add(self, mask: np.ndarray, message) -> None:
         for i in np.flatnonzero(mask):
@@ -34,6 +34,18 @@ class Reasons:
     def note(self, i: int, message: str) -> None:
         self.text[i].append(message)
         self.rows.add(int(i))
+
+    def note_later(self, i: int, key: str) -> None:
+        """Keep row i's place for a reason ``settle`` gives, if any (such as a fluid name CoolProp refuses)."""
+        self.later.append((i, len(self.text[i]), key))
+
+    def settle(self, answers: dict) -> None:
+        """Put each awaited reason, ``answers[key]``, in its place; an empty answer is no reason."""
+        for i, place, key in self.later:
+            if answers[key]:
+                self.text[i].insert(place, answers[key])  # a row awaits one reason: places further on stay right
+                self.rows.add(int(i))
+        self.later = []
 
     def add_array(self, messages: np.ndarray) -> None:
         for i in np.flatnonzero(messages != ""):
@@ -85,12 +97,13 @@ def check_identity(tags: np.ndarray, reasons: Reasons) -> None:
                                "every copy is rejected until the tag is unique")
 
 
-def check_fluids(text, num, reasons: Reasons, valves: pd.DataFrame) -> list[Fluid | None]:
+def check_fluids(text, num, reasons: Reasons, valves: pd.DataFrame) -> list[str | None]:
+    """The phase and fluid columns, without CoolProp: returns each row's fluid name to resolve (None for
+    a custom or blank fluid), whose reason, if any, ``resolve_fluids`` gives in its place."""
     n = len(valves)
-    fluids: list[Fluid | None] = [None] * n
+    to_resolve: list[str | None] = [None] * n
     custom = np.zeros(n, dtype=bool)
     phase = np.full(n, "", dtype=object)
-    cache: dict[str, tuple[Fluid | None, str]] = {}
     for i in range(n):
         word = text["phase"][i].lower()
         if word:
@@ -115,11 +128,8 @@ def check_fluids(text, num, reasons: Reasons, valves: pd.DataFrame) -> list[Flui
             if missing:
                 reasons.note(i, f"fluid 'custom' ({phase[i]}) needs column(s) {', '.join(missing)}")
             continue
-        if name not in cache:
-            cache[name] = resolve_fluid(name)
-        fluids[i], problem = cache[name]
-        if problem:
-            reasons.note(i, problem)
+        to_resolve[i] = name
+        reasons.note_later(i, name)
     check_range(num, "density", reasons, low=0.0, what="a density above 0 kg/m3")
     check_range(num, "viscosity", reasons, low=0.0, what="a viscosity above 0")
     check_range(num, "molar_mass", reasons, low=0.0, what="a molar mass above 0 kg/kmol")
@@ -130,7 +140,17 @@ def check_fluids(text, num, reasons: Reasons, valves: pd.DataFrame) -> list[Flui
     valves["custom"] = custom
     valves["phase_given"] = phase
     valves["fluid"] = text["fluid"]
-    return fluids
+    return to_resolve
+
+
+def resolve_fluids(names: list[str | None], reasons: Reasons) -> list[Fluid | None]:
+    """Each row's ``Fluid`` from CoolProp (None for a custom, blank or unknown fluid); the reasons awaited
+    by ``check_fluids`` are settled.  Each distinct name is asked once."""
+    from audit.fluid.properties import resolve_fluid  # CoolProp: imported while the file was read (io.early)
+
+    answers = {name: resolve_fluid(name) for name in dict.fromkeys(n for n in names if n is not None)}
+    reasons.settle({name: problem for name, (_, problem) in answers.items()})
+    return [None if n is None else answers[n][0] for n in names]
 
 
 def check_service(text, reasons: Reasons, valves: pd.DataFrame) -> None:
