@@ -18,9 +18,16 @@ from functools import lru_cache
 
 import numpy as np
 import pandas as pd
-import pint
 
-UREG = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)  # pint's "gallon" is the US gallon
+
+@lru_cache(maxsize=1)
+def unit_registry():
+    """pint's registry, built at the first unit look-up (some 0.1 s): a run whose line list was read in
+    another process (io.early) never needs it.  pint's "gallon" is the US gallon."""
+    import pint
+
+    return pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+
 
 P_STD = 101325.0  # Pa, the contract's standard atmosphere
 
@@ -108,9 +115,9 @@ def accepted_units(kind: str) -> list[str]:
 
 def _pint_rule(expr: str, si: str) -> UnitRule:
     if "*" in expr and expr.split("*")[0].replace(".", "").replace("e", "").isdigit():
-        return UnitRule(scale=UREG.parse_expression(expr).to(si).magnitude)  # e.g. '42*gallon/day'
-    one = UREG.Quantity(1.0, expr).to(si).magnitude
-    zero = UREG.Quantity(0.0, expr).to(si).magnitude
+        return UnitRule(scale=unit_registry().parse_expression(expr).to(si).magnitude)  # e.g. '42*gallon/day'
+    one = unit_registry().Quantity(1.0, expr).to(si).magnitude
+    zero = unit_registry().Quantity(0.0, expr).to(si).magnitude
     return UnitRule(scale=one - zero, offset=zero)
 
 
