@@ -166,12 +166,13 @@ def run(
     Exit status: 0 every row audited; 1 some rows rejected; 2 bad command line;
     3 input unreadable (file, size limit, rule or scaling file); 70 internal error (a bug).
     """
+    early = _start_reading(linelist, sheet, p_atm, max_rows, max_bytes, max_cell)
     try:
         from audit.history.study import HistorySettings
 
         hist = HistorySettings(tuple(history or ()), history_tz, history_hold, history_stuck)
         code = _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cases, area_scale,
-                    trims, backend, max_rows, max_bytes, max_cell, quiet, hist, previous)
+                    trims, backend, max_rows, max_bytes, max_cell, quiet, hist, previous, early)
     except InputProblem as exc:
         typer.echo(f"valve-audit: {exc}", err=True)
         code = EXIT_INPUT
@@ -184,11 +185,23 @@ def run(
         typer.echo(BUG_MESSAGE, err=True)
         typer.echo(traceback.format_exc(limit=-3), err=True)
         code = EXIT_BUG
+    finally:
+        if early is not None:
+            early.cancel()  # a no-op once the run has its result; else the child ends now
     raise typer.Exit(code)
 
 
+def _start_reading(linelist, sheet, p_atm, max_rows, max_bytes, max_cell):
+    """A child process reading the line list while this one imports the engine (audit.io.early), or None."""
+    from audit.io.early import start_reading
+    from audit.io.reader import Limits
+
+    return start_reading(linelist, sheet, p_atm * 1000.0, Limits(max_bytes=max_bytes, max_rows=max_rows,
+                                                                 max_cell_chars=max_cell))
+
+
 def _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cases, area_scale, trims, backend,
-         max_rows, max_bytes, max_cell, quiet, history=None, previous=None) -> int:
+         max_rows, max_bytes, max_cell, quiet, history=None, previous=None, early=None) -> int:
     from audit.engine import Options
     from audit.io.loader import InputError, Limits
     from audit.io.outputs import OutputError
@@ -212,7 +225,7 @@ def _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cas
     try:
         summary = run_files(linelist, out, options, limits, sheet=sheet, formats=set(formats.split(",")),
                             rules_file=rules_file, trims_file=trims, quiet=quiet, history=history,
-                            previous=previous)
+                            previous=previous, early=early)
     except (InputError, OutputError) as exc:
         raise InputProblem(str(exc))
     except OptionMismatch as exc:

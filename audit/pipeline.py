@@ -12,7 +12,7 @@ from pathlib import Path
 
 from audit import OUTPUT_FORMAT_VERSION, __version__
 from audit.engine import Audit, Options, compute
-from audit.io.loader import LineList, Limits, load_linelist
+from audit.io.loader import LineList, Limits, finish_linelist, load_linelist
 from audit.io.outputs import OutputError, check_writable, staged_folder, write_csvs
 from audit.memory import release_free_memory, use_system_allocator_for_text
 
@@ -85,10 +85,15 @@ def check_options(ll: LineList, options: Options) -> None:
 
 
 def run_audit(linelist, options: Options, limits: Limits | None = None, sheet: str | None = None,
-              trims_file: Path | None = None, progress=None, history=None) -> Audit:
+              trims_file: Path | None = None, progress=None, history=None, early=None) -> Audit:
+    """early: an ``audit.io.early.EarlyRead`` started on this file, or None."""
     progress = progress or _Progress(True)
     with progress.stage("Reading the line list"):
-        ll = load_linelist(linelist, sheet=sheet, p_atm=options.p_atm, limits=limits)
+        read = early.collect(linelist, sheet, options.p_atm, limits) if early else None
+        if read is not None:
+            ll = finish_linelist(read)
+        else:  # read here: no child, or it could not (any error then appears as it would without one)
+            ll = load_linelist(linelist, sheet=sheet, p_atm=options.p_atm, limits=limits)
     release_free_memory()  # the file's text and cells are gone; give their pages back before the engine
     check_options(ll, options)
     progress.report_input(ll)
@@ -123,14 +128,18 @@ def _with_history(audit: Audit, options: Options, history, progress) -> Audit:
 
 def run_files(linelist, out: Path, options: Options, limits: Limits | None = None, sheet: str | None = None,
               formats: set[str] | None = None, rules_file: Path | None = None, trims_file: Path | None = None,
-              quiet: bool = False, history=None, previous: Path | None = None) -> Summary:
-    """Audit ``linelist`` (a path, or '-' for standard input) and write the chosen outputs into ``out``."""
+              quiet: bool = False, history=None, previous: Path | None = None, early=None) -> Summary:
+    """Audit ``linelist`` (a path, or '-' for standard input) and write the chosen outputs into ``out``.
+
+    early: an ``audit.io.early.EarlyRead`` already reading ``linelist`` (the command line starts one
+    before importing the engine), or None.
+    """
     formats = formats or {"csv", "html", "pdf", "xlsx"}
     check_writable(Path(out))
     use_system_allocator_for_text()  # so that release_free_memory reaches pandas' text columns too
     planner = _read_previous(previous) if previous else None  # before this run can replace that folder
     progress = _Progress(quiet)
-    audit = run_audit(linelist, options, limits, sheet, trims_file, progress, history)
+    audit = run_audit(linelist, options, limits, sheet, trims_file, progress, history, early)
     summary = Summary(rows=audit.linelist.rows_total, audited=len(audit.valves), rejected=len(audit.rejected),
                       cases=len(audit.cases), findings=len(audit.findings))
     meta = run_metadata(audit.linelist, options, rules_file, trims_file)

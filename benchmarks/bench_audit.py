@@ -33,32 +33,40 @@ from memory import TreeMemory  # noqa: E402
 
 
 def _measure_audit(path: str, out: str, formats: str) -> dict:
-    """In this (fresh) process: the audit from file to outputs; time, peak memory and time per stage."""
+    """In this (fresh) process, as the command line runs: from the first import of the tool to the outputs.
+
+    The line list is read in a child process while this one imports the engine and CoolProp
+    (audit.io.early), as ``valve-audit run`` does; both are inside the end-to-end time and the memory.
+    """
     import resource
 
     from stages import TIMES, instrument_engine, instrument_pipeline
 
-    t_import = time.perf_counter()
-    from audit.engine import Options
-    from audit.pipeline import run_files
-    import CoolProp.CoolProp  # noqa: F401  (its import is a fixed cost, measured on its own)
-    t_import = time.perf_counter() - t_import
-    from audit.io.reader import Limits
+    t_start = time.perf_counter()
+    with TreeMemory(every=0.05) as memory:  # the workers' share too (the reading child, property calls, CSV parts)
+        from audit.io.early import start_reading
+        from audit.io.reader import Limits
 
-    instrument_engine()
-    instrument_pipeline()
-    # The row limit a user raises with --max-rows for a genuine list of over 100,000 rows (--huge).
-    limits = Limits(max_rows=1_000_000, max_bytes=500_000_000)
-    t0 = time.perf_counter()
-    with TreeMemory(every=0.05) as memory:  # the workers' share too (the property calls and CSV parts fork)
+        # The row limit a user raises with --max-rows for a genuine list of over 100,000 rows (--huge).
+        limits = Limits(max_rows=1_000_000, max_bytes=500_000_000)
+        early = start_reading(Path(path), None, 101325.0, limits)  # 101325 Pa: Options' default p_atm
+        from audit.engine import Options
+        from audit.pipeline import run_files
+        import CoolProp.CoolProp  # noqa: F401  (imported by the engine already; named for the reader)
+        t_import = time.perf_counter() - t_start
+
+        instrument_engine()
+        instrument_pipeline()
+        t0 = time.perf_counter()
         summary = run_files(Path(path), Path(out), Options(), limits=limits, formats=set(formats.split(",")),
-                            quiet=True)
-    seconds = time.perf_counter() - t0
+                            quiet=True, early=early)
+        seconds = time.perf_counter() - t0
+    end_to_end = time.perf_counter() - t_start
     rss_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
     # Judged: the larger of the tree's peak PSS and this process's own peak RSS (shared pages in full).
-    return {"seconds": seconds, "cases": summary.cases, "valves": summary.audited,
+    return {"seconds": seconds, "end_to_end": end_to_end, "cases": summary.cases, "valves": summary.audited,
             "peak_mb": max(memory.peak_mb, rss_mb), "tree_pss_mb": memory.peak_mb, "rss_mb": rss_mb,
-            "stages": dict(TIMES), "import_seconds": t_import}
+            "stages": dict(TIMES), "import_seconds": t_import, "early": early is not None}
 
 
 def _measure_report(path: str, out: str, plots_in_pdf: str = "png") -> dict:
@@ -219,30 +227,34 @@ def _audit_line(n: int, path: Path, tmp: Path) -> dict:
     out = tmp / f"out_{n}"
     out.mkdir()
     r = _child("_measure_audit", str(path), str(out), "csv")
-    print(f"{n:>6} valves, {r['cases']:>6} cases: {r['seconds']:7.2f} s file to CSV outputs, "
-          f"{r['cases'] / r['seconds']:9.0f} valve-cases/s, peak memory {r['peak_mb']:7.0f} MB "
+    print(f"{n:>6} valves, {r['cases']:>6} cases: {r['end_to_end']:7.2f} s end to end ({r['seconds']:.2f} s after "
+          f"the imports), {r['cases'] / r['end_to_end']:7.0f} valve-cases/s, peak memory {r['peak_mb']:5.0f} MB "
           f"(process and workers {r['tree_pss_mb']:.0f} MB PSS, this process {r['rss_mb']:.0f} MB RSS)")
     return r
 
 
 def _print_audit(runs, lists, small, large, args):
     big = runs[large]
-    print(f"stages at {large} valves (import of the tool and CoolProp: {big['import_seconds']:.2f} s, before the run):")
+    beside = ("with the line list read beside it in a child process" if big["early"]
+              else "the line list read after it, in this process")
+    print(f"stages at {large} valves (import of the tool and CoolProp: {big['import_seconds']:.2f} s, {beside}):")
     for name, sec in sorted(big["stages"].items(), key=lambda kv: -kv[1]):
         print(f"  {name:<16} {sec:6.2f} s  {100 * sec / big['seconds']:4.0f} %")
     rest = big["seconds"] - sum(big["stages"].values())
     print(f"  {'other':<16} {rest:6.2f} s  {100 * rest / big['seconds']:4.0f} %   (case table, outlet notes, JSON, "
           "publishing)")
     if not args.small:
-        end_to_end = big["seconds"] + big["import_seconds"]
+        end_to_end = big["end_to_end"]
         print(f"targets at 20,000 valves: end to end {end_to_end:.1f} s (target under 4.5 s: "
               f"{'met' if end_to_end < 4.5 else 'NOT met'}), peak memory {big['peak_mb']:.0f} MB (target under "
               f"400 MB: {'met' if big['peak_mb'] < 400 else 'NOT met'})")
-    growth = runs[large]["seconds"] / runs[small]["seconds"]
+    growth = runs[large]["end_to_end"] / runs[small]["end_to_end"]
     print(f"growth for {large // small}x the work: {growth:.2f}x")
     ref = _child("_measure_reference", str(lists[small]))
     core = _child("_measure_core", str(lists[large]))
-    marginal = (runs[large]["seconds"] - runs[small]["seconds"]) / (runs[large]["cases"] - runs[small]["cases"])
+    # End to end at both sizes: the fixed costs (imports, process start) cancel; reading stays in, as a cost
+    # per case wherever it is not hidden behind the imports.
+    marginal = (runs[large]["end_to_end"] - runs[small]["end_to_end"]) / (runs[large]["cases"] - runs[small]["cases"])
     core_large = core["seconds"] / core["cases"]
     # The floor: every case's CoolProp state and its IEC sizing, nothing else (measured at the large list).
     print(f"marginal cost per case, {small} to {large} valves: {marginal * 1e6:.0f} us; properties and sizing "
@@ -256,7 +268,8 @@ def _print_audit(runs, lists, small, large, args):
           f"{ref_per_case * 1e3:.3f} ms/case")
     print(f"  vectorised properties and sizing, same cases: {core['seconds']:.3f} s, "
           f"{core_per_case * 1e3:.4f} ms/case: {ref_per_case / core_per_case:.0f}x faster per case")
-    print(f"  whole audit, file to CSV (also loading, rules, headroom, writing): {ours_per_case * 1e3:.4f} ms/case: "
+    print(f"  whole audit after the imports (also rules, headroom, writing; reading where not beside the imports): "
+          f"{ours_per_case * 1e3:.4f} ms/case: "
           f"{ref_per_case / ours_per_case:.0f}x")
 
 

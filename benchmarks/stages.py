@@ -46,5 +46,9 @@ def instrument_pipeline() -> None:
     """Reading and writing, around the engine."""
     import audit.pipeline as pipeline
 
-    timed(pipeline, "load_linelist", "read line list")
+    from audit.io.early import EarlyRead
+
+    timed(pipeline, "load_linelist", "read line list")    # the file read here (no child, or it failed)
+    timed(EarlyRead, "collect", "read line list")          # waiting for the child's tables, and unpickling
+    timed(pipeline, "finish_linelist", "read line list")  # the fluid names resolved
     timed(pipeline, "write_csvs", "write CSV")  # results.csv's table is built inside it
