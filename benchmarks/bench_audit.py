@@ -43,13 +43,14 @@ def _measure_audit(path: str, out: str, formats: str) -> dict:
     from stages import TIMES, instrument_engine, instrument_pipeline
 
     t_start = time.perf_counter()
-    with TreeMemory(every=0.05) as memory:  # the workers' share too (the reading child, property calls, CSV parts)
-        from audit.io.early import start_reading
-        from audit.io.reader import Limits
+    from audit.io.early import start_reading
+    from audit.io.reader import Limits
 
-        # The row limit a user raises with --max-rows for a genuine list of over 100,000 rows (--huge).
-        limits = Limits(max_rows=1_000_000, max_bytes=500_000_000)
-        early = start_reading(Path(path), None, 101325.0, limits)  # 101325 Pa: Options' default p_atm
+    # The row limit a user raises with --max-rows for a genuine list of over 100,000 rows (--huge).
+    limits = Limits(max_rows=1_000_000, max_bytes=500_000_000)
+    # Forked before the memory sampler's thread starts (a fork copies no thread); the sampler finds the child.
+    early = start_reading(Path(path), None, 101325.0, limits)  # 101325 Pa: Options' default p_atm
+    with TreeMemory(every=0.05) as memory:  # the workers' share too (the reading child, property calls, CSV parts)
         from audit.engine import Options
         from audit.pipeline import run_files
         import CoolProp.CoolProp  # noqa: F401  (imported by the engine already; named for the reader)
