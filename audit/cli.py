@@ -166,8 +166,9 @@ def run(
     Exit status: 0 every row audited; 1 some rows rejected; 2 bad command line;
     3 input unreadable (file, size limit, rule or scaling file); 70 internal error (a bug).
     """
-    early = _start_reading(linelist, sheet, p_atm, max_rows, max_bytes, max_cell)
+    early = None
     try:
+        early = _start_reading(linelist, sheet, p_atm, max_rows, max_bytes, max_cell)  # before the engine's imports
         from audit.history.study import HistorySettings
 
         hist = HistorySettings(tuple(history or ()), history_tz, history_hold, history_stuck)

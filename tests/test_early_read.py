@@ -15,6 +15,7 @@ import pytest
 from audit.io import early
 from audit.io.loader import load_linelist
 from audit.io.reader import Limits
+from audit.io.rows import Reasons
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -79,7 +80,7 @@ def test_loader_imports_no_coolprop():
 
 def test_resolve_fluids_keeps_reason_order(tmp_path):
     # The fluid's reason is settled after the reading, but stays where its check stands: before the
-    # valve's own checks, as docs/input.md's order of checks has it.
+    # valve's own checks, as the loader runs them (and as every run before the split wrote them).
     path = tmp_path / "hostile.csv"
     path.write_text(HOSTILE)
     ll = load_linelist(path)
@@ -91,6 +92,23 @@ def test_resolve_fluids_keeps_reason_order(tmp_path):
     assert reason["A-7"].startswith("column 'fluid' is blank")
     assert set(ll.valves["tag"]) == {"A-1", "A-5", "A-8"}  # 'water' is CoolProp's Water in another case
     assert "A-6" in reason  # custom without its phase or overrides
+
+
+def test_reasons_settle_keeps_places():
+    reasons = Reasons(2)
+    reasons.note(0, "first")
+    reasons.note_later(0, "x")
+    reasons.note(0, "second")
+    reasons.note_later(0, "y")
+    reasons.note_later(1, "x")
+    reasons.note(0, "third")
+    reasons.settle({"x": "from x", "y": "from y"})
+    assert reasons.text[0] == ["first", "from x", "second", "from y", "third"]
+    assert reasons.text[1] == ["from x"] and reasons.bad().tolist() == [True, True]
+    quiet = Reasons(1)
+    quiet.note_later(0, "x")
+    quiet.settle({"x": ""})  # no reason: the row stays good
+    assert quiet.text[0] == [] and not quiet.bad().any()
 
 
 @pytest.fixture

@@ -76,7 +76,10 @@ def start_reading(path, sheet=None, p_atm=None, limits=None) -> EarlyRead | None
     """
     if not _worth_it(path):
         return None
-    read_fd, write_fd = os.pipe()
+    try:
+        read_fd, write_fd = os.pipe()
+    except OSError:  # no descriptors left, say: read in this process
+        return None
     try:
         pid = os.fork()
     except OSError:

@@ -41,9 +41,9 @@ class Reasons:
 
     def settle(self, answers: dict) -> None:
         """Put each awaited reason, ``answers[key]``, in its place; an empty answer is no reason."""
-        for i, place, key in self.later:
+        for i, place, key in reversed(self.later):  # the last place first: an insertion moves none still to come
             if answers[key]:
-                self.text[i].insert(place, answers[key])  # a row awaits one reason: places further on stay right
+                self.text[i].insert(place, answers[key])
                 self.rows.add(int(i))
         self.later = []
 
