@@ -454,4 +454,4 @@ def test_trace_keeps_every_nth_sample_as_the_plot_draws_it(monkeypatch):
     assert n >= 300                                   # a month of hourly samples, thinned by 3 or more
     expected = whole.traces[tag].iloc[::n // 100].reset_index(drop=True)
     pd.testing.assert_frame_equal(thin.traces[tag], expected)
-    assert len(expected) // 100 == 1                  # the plot (MAX_POINTS per series) thins it no further
+    assert len(expected) // 100 == 1                  # about TRACE_POINTS kept (1 to 2 times), all plotted

@@ -309,7 +309,7 @@ def _study_chunk(items: list) -> list:
         row.update(travel_gap_median_pct=median, travel_gap_trend_pct_per_month=trend)
         out[k][1] = representative(g, v, trend, days)
         trace = g[["time_ns", "travel_pct", "travel_observed_pct", "choke_ratio"]]
-        # Thinned here as the plot thins it (every n-th sample), so a year of samples is not kept for it.
+        # Thinned here for the report's plot (every n-th sample), so a year of samples is not kept for it.
         out[k][2] = trace.iloc[::max(1, len(trace) // TRACE_POINTS)].reset_index(drop=True)
     return out
 

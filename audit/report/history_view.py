@@ -9,13 +9,10 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from audit.history.study import TRACE_POINTS
-
 LIMITS = [  # history.csv column, heading
     ("share_choked", "choked"), ("share_near_choke", "near choke"), ("share_cavitating", "cavitating"),
     ("share_flashing", "flashing"), ("share_travel_high", "travel high"), ("share_travel_low", "travel low"),
     ("share_velocity_over", "too fast"), ("share_noise_over", "too loud")]
-MAX_POINTS = TRACE_POINTS  # per plotted series: the study keeps every n-th sample, about this many
 
 
 def _pct(x) -> str:
@@ -46,18 +43,17 @@ def trace_svg(trace: pd.DataFrame, tag: str) -> str:
     """Predicted and observed travel (top) and choke ratio (bottom) over time, as inline SVG."""
     from audit.report.plots import svg_text, plt
 
+    # Every point given: the study already kept every n-th sample, some TRACE_POINTS of them (history.study).
     t = pd.to_datetime(trace["time_ns"].to_numpy(np.int64).astype("datetime64[ns]"))
-    step = max(1, len(t) // MAX_POINTS)
-    t = t[::step]
     fig, (top, bottom) = plt.subplots(2, 1, figsize=(7.0, 3.6), sharex=True)
     try:
-        top.plot(t, trace["travel_pct"].to_numpy(float)[::step], "-", lw=0.8, color="0.2", label="predicted")
-        observed = trace["travel_observed_pct"].to_numpy(float)[::step]
+        top.plot(t, trace["travel_pct"].to_numpy(float), "-", lw=0.8, color="0.2", label="predicted")
+        observed = trace["travel_observed_pct"].to_numpy(float)
         if np.isfinite(observed).any():
             top.plot(t, observed, ":", lw=0.9, color="tab:blue", label="observed")
         top.set_ylabel("travel [%]")
         top.legend(loc="upper left", frameon=False, ncols=2)
-        bottom.plot(t, trace["choke_ratio"].to_numpy(float)[::step], "-", lw=0.8, color="0.2")
+        bottom.plot(t, trace["choke_ratio"].to_numpy(float), "-", lw=0.8, color="0.2")
         bottom.axhline(1.0, ls="--", lw=0.8, color="tab:red")
         bottom.set_ylabel("choke ratio [-]")
         bottom.set_xlabel("time (UTC)")
