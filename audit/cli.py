@@ -143,7 +143,8 @@ def run(
     backend: str = typer.Option("HEOS", "--backend", callback=_backend,
                                 help="CoolProp backend for pure fluids: HEOS (full equation of state) or a "
                                      "tabular one, BICUBIC&HEOS or TTSE&HEOS."),
-    max_rows: int = typer.Option(100_000, "--max-rows", callback=_at_least_one, help="Refuse a line list with more rows."),
+    max_rows: int = typer.Option(100_000, "--max-rows", callback=_at_least_one,
+                                 help="Refuse a line list with more rows."),
     max_bytes: int = typer.Option(50_000_000, "--max-bytes", callback=_at_least_one,
                                   help="Refuse a line list file larger than this many bytes."),
     max_cell: int = typer.Option(1_000, "--max-cell", callback=_at_least_one, help="Reject a row with a longer cell."),

@@ -191,7 +191,8 @@ def impossible_choke(cases: pd.DataFrame, res: dict, ok: np.ndarray) -> np.ndarr
                   f"xTP {xtp[i]:.3g}) is 1 or more, which no valve reaches; check columns xt and k and the fittings")
     for i in np.flatnonzero(over_liquid):
         msg[i] = (f"the choked pressure drop {res['dp_choked'][i] / 1e5:.4g} bar reaches the inlet pressure "
-                  f"{p1[i] / 1e5:.4g} bar(a), which no valve reaches; check columns fl, vapour_pressure and the fittings")
+                  f"{p1[i] / 1e5:.4g} bar(a), which no valve reaches; check columns fl, vapour_pressure and the "
+                  "fittings")
     cases["case_error"] = np.where((err == "") & (msg != ""), msg, err)
     return msg
 

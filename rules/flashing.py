@@ -42,7 +42,8 @@ def evaluate(cases, th) -> RuleResult:
             findings(condensing, "CONDENSING", lambda i: (
                 f"Gas partly condenses across the valve at case {name[i]}: {(1 - gas_quality[i]) * 100:.1f} % of the "
                 f"mass leaves as liquid at {bar(p2[i])}; the gas methods assume a dry outlet, so treat the "
-                "velocity and choking figures as rough and check for liquid slugs and erosion."), value=1 - gas_quality)))
+                "velocity and choking figures as rough and check for liquid slugs and erosion."),
+                     value=1 - gas_quality)))
 
 
 RULE = Rule(code="flashing", title="Flashing", order=15, evaluate=evaluate, thresholds=(),

@@ -100,8 +100,9 @@ def gas_levels(cases, an, stp, wall, wall_note):
         f"; downstream pipe Mach {m:.2f} is above 0.3, beyond the pipe flow the method describes: the level is "
         "uncertain" for m in pipe_mach[fast_pipe]]
     sonic = computed & (mach >= 1.0)
-    outlet_note[sonic] = outlet_note[sonic] + [f"; valve outlet Mach {m:.2f}: the outlet is choked and the expansion finishes in the "
-                          "pipe, at the edge of the method (clause 7's velocity limits applied)" for m in mach[sonic]]
+    outlet_note[sonic] = outlet_note[sonic] + [f"; valve outlet Mach {m:.2f}: the outlet is choked and the expansion "
+                                               "finishes in the pipe, at the edge of the method (clause 7's velocity "
+                                               "limits applied)" for m in mach[sonic]]
     # The first reason that applies, as np.select would pick it (assigned last), in an object array:
     # np.select would widen every sentence to a fixed-width text array per case.
     note = np.full(len(cases), "", dtype=object)
@@ -159,7 +160,8 @@ RULE = Rule(
         Threshold("an_liquid", noise_liquid.AN_GLOBE, "", "IEC 60534-8-4",
                   "valve correction of the liquid acoustic efficiency, An (-4.6: globe valves)", low=-7.0, high=-1.0),
         Threshold("an_gas", noise_gas.AN_GLOBE, "", "IEC 60534-8-3",
-                  "valve correction of the gas acoustic efficiency, An (-3.8: globe valve, cage trim)", low=-7.0, high=-1.0),
+                  "valve correction of the gas acoustic efficiency, An (-3.8: globe valve, cage trim)",
+                  low=-7.0, high=-1.0),
         Threshold("stp_gas", noise_gas.STP_GLOBE, "", "IEC 60534-8-3",
                   "peak Strouhal number of the gas trim noise, Stp (0.2: globe valve, cage trim)", low=0.01, high=2.0),
     ),

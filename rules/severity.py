@@ -72,8 +72,8 @@ TABLE: tuple[Grade, ...] = (
           "IEC 60534-2-1 (outlet velocity); HEM speed of sound"),
     Grade("VELOCITY", "outlet_velocity", P, "outlet velocity above velocity.*_m_s or the row's velocity_limit",
           "erosion and vibration", "common practice"),
-    Grade("MACH", "outlet_velocity", P, "gas outlet Mach number above velocity.gas_mach", "noise and vibration at the outlet",
-          "common practice"),
+    Grade("MACH", "outlet_velocity", P, "gas outlet Mach number above velocity.gas_mach",
+          "noise and vibration at the outlet", "common practice"),
     Grade("INLET_VELOCITY", "inlet_velocity", W,
           "body inlet velocity above velocity.inlet_liquid_m_s (liquid) or Mach velocity.inlet_gas_mach (gas)",
           "erosion at the inlet, and the inlet pressure the sizing assumed is not the one the valve sees",
@@ -104,10 +104,10 @@ TABLE: tuple[Grade, ...] = (
     Grade("NOT_CONVERGED", "not_converged", P, "no flow coefficient meets the case",
           "reducers or laminar flow limit the body, or the data are wrong", "IEC 60534-2-1"),
     Grade("CASE_INVALID", "case_invalid", W, "a case could not be audited", "that case is not screened", "—"),
-    Grade("TYPICAL_FACTORS", "typical_factors", N, "typical factors of the valve style used", "the trim's own data would be "
-          "better", "IEC 60534-2-1 (typical values)"),
-    Grade("PROPERTIES_OVERRIDDEN", "properties_overridden", N, "fluid properties from the line list", "what the numbers rest on",
-          "—"),
+    Grade("TYPICAL_FACTORS", "typical_factors", N, "typical factors of the valve style used",
+          "the trim's own data would be better", "IEC 60534-2-1 (typical values)"),
+    Grade("PROPERTIES_OVERRIDDEN", "properties_overridden", N, "fluid properties from the line list",
+          "what the numbers rest on", "—"),
 )
 BY_CODE = {g.code: g for g in TABLE}
 
@@ -168,7 +168,8 @@ def adjust_for_service(found: pd.DataFrame, cases: pd.DataFrame, thresholds: dic
     cav = np.isin(code, ("CAV_CHOKED", "CAV_DEVELOPED")) & part_time
     move(cav, np.maximum(sev - 1, int(N)), "one level lower: the valve works only part of the time, so cavitation "
                                            "damage accrues slowly")
-    designed_flash = (intent == "flashing") & ((code == "FLASHING") | (np.isin(code, ("CHOKED", "CHOKE_NEAR")) & flashing))
+    choke_codes = np.isin(code, ("CHOKED", "CHOKE_NEAR"))
+    designed_flash = (intent == "flashing") & ((code == "FLASHING") | (choke_codes & flashing))
     move(designed_flash, N, "a note: the service is designed to flash; watch outlet erosion and the trim and body "
                             "material")
     designed_choke = (intent == "choked") & np.isin(code, ("CHOKED", "CHOKE_NEAR")) & gas

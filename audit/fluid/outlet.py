@@ -150,8 +150,10 @@ def isenthalpic_outlet(fluids: list[Fluid | None], p_out: np.ndarray, h_in: np.n
             except ValueError as exc:
                 if backend != "HEOS":  # outside a tabular backend's range: the full equation of state
                     full = isenthalpic_outlet([fluid], p_out[i:i + 1], h_in[i:i + 1], "HEOS",
-                                              None if t_in is None else t_in[i:i + 1], None if gas is None else gas[i:i + 1])
-                    st.cache[key] = full["error"][0] or tuple(full[k][0] for k in ("quality", "rho", "t", "sound_speed"))
+                                              None if t_in is None else t_in[i:i + 1],
+                                              None if gas is None else gas[i:i + 1])
+                    st.cache[key] = (full["error"][0]
+                                     or tuple(full[k][0] for k in ("quality", "rho", "t", "sound_speed")))
                 else:
                     st.cache[key] = f"CoolProp could not flash to the outlet pressure ({str(exc)[:120]})"
         value = st.cache[key]

@@ -367,7 +367,8 @@ def resolve_fluid(text: str) -> tuple[Fluid | None, str]:
             return None, f"column 'fluid': component '{twice[0][:40]}' appears twice in '{text[:60]}'; name it once"
         total = sum(fracs)
         if not all(f > 0 for f in fracs) or abs(total - 1.0) > 0.01:
-            return None, f"column 'fluid': mole fractions in '{text[:60]}' must be positive and add up to 1 (they add up to {total:g})"
+            return None, (f"column 'fluid': mole fractions in '{text[:60]}' must be positive and add up to 1 "
+                          f"(they add up to {total:g})")
         fluid = Fluid(tuple(comps), tuple(f / total for f in fracs))
         try:
             state_for(fluid, "HEOS")  # CoolProp needs interaction data for every pair: ask now, per row

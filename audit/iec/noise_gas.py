@@ -110,7 +110,8 @@ def source_power(m, p1, p2, rho1, k, kv, fl, fd, an, stp):
 def peak_spectrum(f, fp):
     """Relative band level [dB] of the aerodynamic spectrum around fp, IEC 60534-8-3 (offset included)."""
     r = f / fp
-    return SPECTRUM_OFFSET_DB - 10.0 * np.log10(1.0 + (r / 2.0) ** 2.5) - 10.0 * np.log10(1.0 + (1.0 / (2.0 * r)) ** 1.7)
+    return (SPECTRUM_OFFSET_DB - 10.0 * np.log10(1.0 + (r / 2.0) ** 2.5)
+            - 10.0 * np.log10(1.0 + (1.0 / (2.0 * r)) ** 1.7))
 
 
 def transmission_loss(f, di, wall, rho2, c2, rho_s=ac.STEEL_DENSITY, c_s=ac.STEEL_SOUND_SPEED,

@@ -143,5 +143,6 @@ def _liquid_noise_block(m, p1, p2, pv, rho, c_liquid, kv, d, di, wall, fl, fd, x
         level = ac.a_weighted_sum(outside)
     ok = applies[:, 0] & np.isfinite(level)
     flat = lambda a: np.where(ok, a[:, 0], np.nan)  # noqa: E731
-    return {"level_dba": np.where(ok, level, np.nan), "fp_turb": flat(fp_turb), "fp_cav": flat(np.where(eta_cav > 0, fp_cav, np.nan)),
-            "xf": flat(xf), "xfzp1": flat(x), "eta_turb": flat(eta_turb), "eta_cav": flat(eta_cav)}
+    return {"level_dba": np.where(ok, level, np.nan), "fp_turb": flat(fp_turb),
+            "fp_cav": flat(np.where(eta_cav > 0, fp_cav, np.nan)), "xf": flat(xf), "xfzp1": flat(x),
+            "eta_turb": flat(eta_turb), "eta_cav": flat(eta_cav)}

@@ -394,5 +394,6 @@ def flow_through(c_kv, is_gas, p1, p2, t1, rho1, pv, pc, molar_mass, k, d, d1, d
     w_liq = q * case.rho1 / 3600.0
     x_choked = case.f_gamma * xtp
     x_eff = np.minimum(case.x, x_choked)
-    w_gas = N6 * fp * c * expansion_factor(case.x, case.f_gamma, case.xt, x_choked) * np.sqrt(x_eff * case.p1 * case.rho1) / 3600.0
+    y = expansion_factor(case.x, case.f_gamma, case.xt, x_choked)
+    w_gas = N6 * fp * c * y * np.sqrt(x_eff * case.p1 * case.rho1) / 3600.0
     return np.where(case.gas, w_gas, w_liq)

@@ -26,7 +26,8 @@ from audit.io.shapes import fold_long
 from audit.io.units import P_STD, is_unit_text, parse_column
 
 from audit.io.cases import read_cases
-from audit.io.columns import CASE_COLUMN, CASE_FIELDS, HISTORY_SIGNALS, NUMERIC, OVERRIDES, REQUIRED, TEXT, is_known_column, suggestion
+from audit.io.columns import (CASE_COLUMN, CASE_FIELDS, HISTORY_SIGNALS, NUMERIC, OVERRIDES, REQUIRED, TEXT,
+                              is_known_column, suggestion)
 from audit.io.rows import (Reasons, check_bare_sizes, check_cell_length, check_fluids, check_identity, check_piping,
                            check_plausible, check_range, check_service, check_valve, resolve_fluids, text_column)
 

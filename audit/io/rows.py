@@ -178,7 +178,8 @@ def check_range(num, col, reasons, low=None, high=None, what="", low_inclusive=F
 def check_valve(text, num, reasons: Reasons, valves: pd.DataFrame) -> None:
     n = len(valves)
     size = num["valve_size"]
-    reasons.add(~np.isfinite(size) & ~reasons.mentions("valve_size"), "column 'valve_size' is blank; the valve size is needed")
+    reasons.add(~np.isfinite(size) & ~reasons.mentions("valve_size"),
+                "column 'valve_size' is blank; the valve size is needed")
     check_range(num, "valve_size", reasons, low=0.0, what="a size above 0")
     cv = np.where(np.isfinite(num["rated_cv"]), num["rated_cv"], num["rated_kv"] * 1.156)
     both_blank = ~np.isfinite(cv)
@@ -266,7 +267,8 @@ def check_plausible(num: dict, reasons: Reasons) -> None:
         out = np.isfinite(values) & (values > 0) & ((values < low) | (values > high)) | np.isinf(values)
         shown = values.copy()
         reasons.add(out & ~reasons.mentions(col), lambda i, col=col, words=words, shown=shown: (
-            f"column '{col}': {shown[i]:.4g} (in SI) is outside the plausible range {words}; check the value and its unit"))
+            f"column '{col}': {shown[i]:.4g} (in SI) is outside the plausible range {words}; check the value and "
+            "its unit"))
         values[out] = np.nan
 
 

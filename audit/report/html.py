@@ -76,7 +76,8 @@ NOT_COVERED = [
     "valve body or upstream pipe.",
     "Two-phase inlets, slurries, non-Newtonian fluids; actuator sizing, stroking speed, shut-off and leakage; body "
     "and trim material, pressure rating; installed (rather than inherent) characteristic; control loop behaviour.",
-    "The valve manufacturer's own factors at partial travel (FL, xT and Fd change with opening; rated values are used).",
+    "The valve manufacturer's own factors at partial travel (FL, xT and Fd change with opening; rated values are "
+    "used).",
 ]
 
 
@@ -185,8 +186,8 @@ def build_context(audit, meta: dict, plots: bool = True, progress=None, images: 
               "default": _fmt(t.default, 4), "source": t.source, "meaning": t.meaning}
              for r in all_rules() for t in r.thresholds]
     ll = audit.linelist.valves
-    typical = [{"tag": t, "style": s, "which": w} for t, s, w in zip(ll["tag"], ll["valve_style"], ll["typical_factors"])
-               if w]
+    typical = [{"tag": t, "style": s, "which": w}
+               for t, s, w in zip(ll["tag"], ll["valve_style"], ll["typical_factors"]) if w]
     methods = METHODS + [f"Atmospheric pressure for gauge units: {meta['p_atm_kpa']:g} kPa unless a row's p_atm says "
                          f"otherwise. Property backend for pure fluids: {meta['property_backend']}."]
     scaled = ""
@@ -315,7 +316,8 @@ def _details(audit, plots: bool, progress, images: bool = False) -> list[dict]:
             jobs.append((vc[PLOT_COLUMNS].reset_index(drop=True), int(np.argmax(ratios)), images))
             slots.append(len(out))
         out.append({
-            "rank": int(v.rank), "anchor": f"valve-{int(v.rank)}", "tag": v.tag, "service": v.service, "area": v.area, "severity": v.severity,
+            "rank": int(v.rank), "anchor": f"valve-{int(v.rank)}", "tag": v.tag, "service": v.service, "area": v.area,
+            "severity": v.severity,
             "mark": SEVERITY_MARK[int(v.severity_level)], "worst_case": v.worst_case,
             "fluid": lv["fluid"], "size": f"{lv['valve_size'] * 1000:.0f} mm", "rated_cv": _fmt(lv["rated_cv"], 4),
             "characteristic": lv["characteristic"].replace("_", " "), "fl": _fmt(lv["fl"]), "xt": _fmt(lv["xt"]),

@@ -44,7 +44,8 @@ def worklist_table(audit) -> pd.DataFrame:
     out = valves.join(per, on="valve")
     out["rated_cv"] = audit.linelist.valves["rated_cv"].to_numpy()[out["valve"].to_numpy(int)]
     out = out[out["finding_codes"] != ""].copy()
-    out["families"] = [", ".join(sorted({family_of(c) for c in codes.split(";") if c})) for codes in out["finding_codes"]]
+    out["families"] = [", ".join(sorted({family_of(c) for c in codes.split(";") if c}))
+                       for codes in out["finding_codes"]]
     for col in PLANNER_COLUMNS + ["carried"]:
         out[col] = ""
     out["status"] = "open"
