@@ -41,28 +41,35 @@ def family_summary(cases: pd.DataFrame, findings: pd.DataFrame) -> pd.DataFrame:
     if not len(findings):
         return pd.DataFrame(columns=cols)
     row = findings["case_row"].to_numpy(int)
-    f = pd.DataFrame({
-        "valve": cases["valve"].to_numpy(int)[row], "family": findings["family"].to_numpy(dtype=object),
-        "code": findings["code"].to_numpy(dtype=object), "severity": findings["severity"].to_numpy(int),
-        "value": np.nan_to_num(findings["value"].to_numpy(float), nan=-np.inf),
-        "case": cases["case"].to_numpy(dtype=object)[row], "order": cases["case_order"].to_numpy(int)[row],
-        "sentence": findings["sentence"].to_numpy(dtype=object)})
-    f = f.sort_values(["valve", "family", "severity", "value", "order"], ascending=[True, True, False, False, True],
-                      kind="stable")
-    worst = f.drop_duplicates(["valve", "family"])
-    # Each other case once, at its own worst level; the level is named where it differs from the worst's.
-    others = f.drop_duplicates(["valve", "family", "case"]).merge(
-        worst[["valve", "family", "case", "severity"]].rename(columns={"case": "worst_case", "severity": "worst"}),
-        on=["valve", "family"])
-    others = others[others["case"] != others["worst_case"]].sort_values("order", kind="stable")
-    labels = np.array([Severity(int(s)).label for s in others["severity"]], dtype=object)
-    others = others.assign(label=np.where(others["severity"] == others["worst"], others["case"],
-                                          others["case"].astype(object) + " (" + labels + ")"))
-    also = _joined(zip(others["valve"].tolist(), others["family"].tolist()), others["label"].tolist(), ", ")
-    out = worst[["valve", "family", "code", "severity", "case"]].reset_index(drop=True)
-    out["also"] = [also.get(k, "") for k in zip(out["valve"].tolist(), out["family"].tolist())]
-    out["sentence"] = [s if not a else f"{s} Also at case {a}."
-                       for s, a in zip(worst["sentence"].to_numpy(dtype=object), out["also"])]
+    valve = cases["valve"].to_numpy(int)[row]
+    family = findings["family"].to_numpy(dtype=object)
+    severity = findings["severity"].to_numpy(int)
+    value = np.nan_to_num(findings["value"].to_numpy(float), nan=-np.inf)
+    case = cases["case"].to_numpy(dtype=object)[row]
+    order = cases["case_order"].to_numpy(int)[row]
+    family_rank = pd.factorize(family, sort=True)[0]  # families in the order of their names
+    # One stable sort: by valve and family, then the worst first (numpy's lexsort takes the last key first).
+    idx = np.lexsort((order, -value, -severity, family_rank, valve))
+    group = np.ones(len(idx), dtype=bool)
+    group[1:] = (valve[idx][1:] != valve[idx][:-1]) | (family_rank[idx][1:] != family_rank[idx][:-1])
+    starts = np.flatnonzero(group)
+    worst = idx[starts]
+    sev, cas, odr = severity[idx].tolist(), case[idx].tolist(), order[idx].tolist()
+    also = []
+    for a, b in zip(starts.tolist(), starts[1:].tolist() + [len(idx)]):
+        seen, others = {cas[a]}, []
+        for j in range(a + 1, b):  # each other case once, at its own worst level (its first row here)
+            if cas[j] not in seen:
+                seen.add(cas[j])
+                label = cas[j] if sev[j] == sev[a] else f"{cas[j]} ({Severity(sev[j]).label})"
+                others.append((odr[j], label))
+        others.sort(key=lambda o: o[0])  # in case order (stable)
+        also.append(", ".join(label for _, label in others))
+    sentence = [s if not a else f"{s} Also at case {a}."
+                for s, a in zip(findings["sentence"].to_numpy(dtype=object)[worst].tolist(), also)]
+    out = pd.DataFrame({"valve": valve[worst], "family": family[worst],
+                        "code": findings["code"].to_numpy(dtype=object)[worst], "severity": severity[worst],
+                        "case": case[worst], "also": also, "sentence": sentence})
     return out.sort_values(["valve", "severity"], ascending=[True, False], kind="stable").reset_index(drop=True)[cols]
 
 

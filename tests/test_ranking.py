@@ -7,6 +7,8 @@ definitions (IEC 60534-2-4): for a linear trim Phi = h, for an equal-percentage 
 import importlib.util
 
 import numpy as np
+from hypothesis import given, settings
+from hypothesis import strategies as st
 import pytest
 from typer.testing import CliRunner
 
@@ -156,3 +158,56 @@ def test_site_file_overrides_a_severity_table_threshold(tmp_path):
     assert "CAV_CHOKED" in plain.cases["findings"].iloc[0] and plain.valves["severity"].iloc[0] == "plan"
     site = audit_rows(tmp_path, header, row, options=Options(thresholds={"cavitation": {"urgent_dp_kpa": 500}}))
     assert site.valves["severity"].iloc[0] == "urgent"
+
+
+def _family_summary_by_definition(cases, findings):
+    """family_summary's docstring, group by group in plain Python (the reference for the sorted version)."""
+    from rules.base import Severity
+
+    rows = []
+    for i, (r, fam, code, sev, value, sentence) in enumerate(zip(
+            findings["case_row"], findings["family"], findings["code"], findings["severity"], findings["value"],
+            findings["sentence"])):
+        rows.append(dict(i=i, valve=int(cases["valve"][r]), family=fam, code=code, severity=int(sev),
+                         value=-np.inf if np.isnan(value) else value, case=cases["case"][r],
+                         order=int(cases["case_order"][r]), sentence=sentence))
+    groups = {}
+    for x in rows:
+        groups.setdefault((x["valve"], x["family"]), []).append(x)
+    out = []
+    for (valve, family), members in groups.items():
+        members.sort(key=lambda x: (-x["severity"], -x["value"], x["order"], x["i"]))
+        worst, firsts = members[0], {}
+        for x in members:
+            firsts.setdefault(x["case"], x)   # a case's own worst row
+        others = sorted((x for c, x in firsts.items() if c != worst["case"]), key=lambda x: x["order"])
+        also = ", ".join(x["case"] if x["severity"] == worst["severity"]
+                         else f"{x['case']} ({Severity(x['severity']).label})" for x in others)
+        out.append(dict(valve=valve, family=family, code=worst["code"], severity=worst["severity"],
+                        case=worst["case"], also=also,
+                        sentence=worst["sentence"] + (f" Also at case {also}." if also else "")))
+    out.sort(key=lambda x: (x["valve"], -x["severity"], x["family"]))
+    return out
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.tuples(st.integers(0, 3), st.sampled_from(["choke", "noise", "travel"]), st.integers(0, 2),
+                          st.integers(1, 4), st.sampled_from([np.nan, 0.5, 1.0, 2.0])), min_size=1, max_size=40))
+def test_family_summary_equals_its_definition(found):
+    # Ties in level and value, blank values, several findings of one case: the sorted, vectorised
+    # grouping must give what the docstring defines (one row per valve and family, worst first).
+    import pandas as pd
+
+    from audit.ranking import family_summary
+
+    names = ["min", "norm", "max"]
+    cases = pd.DataFrame({"valve": [v for v in range(4) for _ in names], "case": names * 4,
+                          "case_order": [0, 1, 2] * 4})
+    findings = pd.DataFrame({"case_row": [3 * v + c for v, _, c, _, _ in found],
+                             "family": [f for _, f, _, _, _ in found],
+                             "code": [f"{f.upper()}_{s}" for _, f, _, s, _ in found],
+                             "severity": [s for _, _, _, s, _ in found], "value": [x for *_, x in found],
+                             "sentence": [f"s{i}." for i in range(len(found))]})
+    got = family_summary(cases, findings).to_dict("records")
+    assert [{k: (int(v) if k in ("valve", "severity") else v) for k, v in r.items()} for r in got] == \
+        _family_summary_by_definition(cases, findings)
