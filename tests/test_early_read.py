@@ -151,6 +151,13 @@ def test_start_reading_declines(tmp_path, monkeypatch):
     assert early.start_reading("-") is None
     monkeypatch.delitem(sys.modules, "CoolProp")
     assert early.start_reading(tmp_path / "missing.csv") is None
+    if hasattr(os, "mkfifo"):
+        os.mkfifo(tmp_path / "pipe.csv")
+        assert early.start_reading(tmp_path / "pipe.csv") is None  # reads once: the parent must read it
+    job = early.start_reading(path)  # the plain file is read early
+    assert job is not None or not hasattr(os, "fork")
+    if job is not None:
+        job.cancel()
     monkeypatch.setattr(early, "EARLY_MAX_BYTES_CSV", 10)
     assert early.start_reading(path) is None  # larger than the limit: read in the process itself
 

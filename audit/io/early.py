@@ -9,15 +9,16 @@ sends the result back through a pipe (pickled), while this process imports the e
 gives (tests/test_early_read.py).
 
 Only an optimisation: wherever it cannot help or anything goes wrong in the child (no fork,
-standard input, a file too large for the copy through the pipe to be worth it, CoolProp
-already imported, an unreadable file), ``collect`` answers None and the caller reads the file
-itself, so every error appears as it would without this module.  Imports nothing of the tool
-at module level.
+standard input or another file that is not a regular one and so reads only once, a file too
+large for the copy through the pipe to be worth it, CoolProp already imported, an unreadable
+file), ``collect`` answers None and the caller reads the file itself, so every error appears as
+it would without this module.  Imports nothing of the tool at module level.
 """
 from __future__ import annotations
 
 import os
 import pickle
+import stat
 import sys
 from pathlib import Path
 
@@ -116,11 +117,13 @@ def _worth_it(path) -> bool:
     if "CoolProp" in sys.modules or not hasattr(os, "fork") or str(path) == "-":
         return False
     try:
-        size = Path(path).stat().st_size
+        info = Path(path).stat()
     except (OSError, ValueError):
         return False
+    if not stat.S_ISREG(info.st_mode):  # a pipe or device reads once: the parent could not read it again
+        return False
     limit = EARLY_MAX_BYTES_XLSX if str(path).lower().endswith((".xlsx", ".xlsm")) else EARLY_MAX_BYTES_CSV
-    return size <= limit
+    return info.st_size <= limit
 
 
 def _key(path, sheet, p_atm, limits) -> tuple:
