@@ -169,12 +169,17 @@ def run(
     """
     early = None
     try:
-        early = _start_reading(linelist, sheet, p_atm, max_rows, max_bytes, max_cell)  # before the engine's imports
+        from audit.io.early import start_reading
+        from audit.io.reader import Limits
+
+        limits = Limits(max_bytes=max_bytes, max_rows=max_rows, max_cell_chars=max_cell)
+        # Before the engine's imports: a child reads the line list while they load (audit.io.early).
+        early = start_reading(linelist, sheet, p_atm * 1000.0, limits)
         from audit.history.study import HistorySettings
 
         hist = HistorySettings(tuple(history or ()), history_tz, history_hold, history_stuck)
         code = _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cases, area_scale,
-                    trims, backend, max_rows, max_bytes, max_cell, quiet, hist, previous, early)
+                    trims, backend, limits, quiet, hist, previous, early)
     except InputProblem as exc:
         typer.echo(f"valve-audit: {exc}", err=True)
         code = EXIT_INPUT
@@ -193,19 +198,10 @@ def run(
     raise typer.Exit(code)
 
 
-def _start_reading(linelist, sheet, p_atm, max_rows, max_bytes, max_cell):
-    """A child process reading the line list while this one imports the engine (audit.io.early), or None."""
-    from audit.io.early import start_reading
-    from audit.io.reader import Limits
-
-    return start_reading(linelist, sheet, p_atm * 1000.0, Limits(max_bytes=max_bytes, max_rows=max_rows,
-                                                                 max_cell_chars=max_cell))
-
-
 def _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cases, area_scale, trims, backend,
-         max_rows, max_bytes, max_cell, quiet, history=None, previous=None, early=None) -> int:
+         limits, quiet, history=None, previous=None, early=None) -> int:
     from audit.engine import Options
-    from audit.io.loader import InputError, Limits
+    from audit.io.loader import InputError
     from audit.io.outputs import OutputError
     from audit.pipeline import OptionMismatch, run_files
     from rules import ThresholdError, effective_thresholds
@@ -223,7 +219,6 @@ def _run(linelist, out, sheet, p_atm, rules_file, formats, scale_flow, scale_cas
     options = Options(p_atm=p_atm * 1000.0, backend=backend, thresholds=thresholds, flow_scale=scale_flow,
                       scale_cases=tuple(c.strip().lower() for c in scale_cases.split(",") if c.strip()),
                       area_scale={str(k): float(v) for k, v in areas.items()})
-    limits = Limits(max_bytes=max_bytes, max_rows=max_rows, max_cell_chars=max_cell)
     try:
         summary = run_files(linelist, out, options, limits, sheet=sheet, formats=set(formats.split(",")),
                             rules_file=rules_file, trims_file=trims, quiet=quiet, history=history,

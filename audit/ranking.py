@@ -50,8 +50,9 @@ def family_summary(cases: pd.DataFrame, findings: pd.DataFrame) -> pd.DataFrame:
     family_rank = pd.factorize(family, sort=True)[0]  # families in the order of their names
     # One stable sort: by valve and family, then the worst first (numpy's lexsort takes the last key first).
     idx = np.lexsort((order, -value, -severity, family_rank, valve))
+    v, f = valve[idx], family_rank[idx]
     group = np.ones(len(idx), dtype=bool)
-    group[1:] = (valve[idx][1:] != valve[idx][:-1]) | (family_rank[idx][1:] != family_rank[idx][:-1])
+    group[1:] = (v[1:] != v[:-1]) | (f[1:] != f[:-1])
     starts = np.flatnonzero(group)
     worst = idx[starts]
     sev, cas, odr = severity[idx].tolist(), case[idx].tolist(), order[idx].tolist()

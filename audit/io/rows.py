@@ -36,7 +36,9 @@ class Reasons:
         self.rows.add(int(i))
 
     def note_later(self, i: int, key: str) -> None:
-        """Keep row i's place for a reason ``settle`` gives, if any (such as a fluid name CoolProp refuses)."""
+        """Keep row i's place for a reason ``settle`` gives, if any (such as a fluid name CoolProp refuses).
+
+        Until settled, the reason is in no row's text: ``mentions`` and ``bad`` do not see it."""
         self.later.append((i, len(self.text[i]), key))
 
     def settle(self, answers: dict) -> None:
