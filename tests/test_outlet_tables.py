@@ -13,7 +13,7 @@ import CoolProp.CoolProp as CP
 from audit.fluid.outlet import isenthalpic_outlet
 from audit.fluid.outlet_tables import build_outlet_table, lookup_outlet, tabulated_outlet
 from audit.fluid.properties import resolve_fluid
-from audit.fluid.tables import NEAR_SATURATION_K, PROMISED_REL_ERROR, full_equation
+from audit.fluid.tables import NEAR_SATURATION_K, PROMISED_REL_ERROR, fluid_states
 
 N = 3000
 CHECKED = 300  # full calculations to compare with (each 30-150 us, a mixture's more)
@@ -30,7 +30,7 @@ def states(name, p_rng, t_rng, drop, seed):
     assert not problem
     rng = np.random.default_rng(seed)
     p1, t1 = rng.uniform(*p_rng, N), rng.uniform(*t_rng, N)
-    h1 = full_equation(fluid, p1, t1)["h"]
+    h1 = fluid_states(fluid, p1, t1)["h"]
     p2 = p1 * (1.0 - rng.uniform(*drop, N))
     return fluid, p2, h1, t1
 

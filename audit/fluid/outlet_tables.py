@@ -28,7 +28,7 @@ from audit.fluid.names import Fluid
 from audit.fluid.outlet import isenthalpic_outlet
 from audit.fluid.properties import state_groups
 from audit.fluid.tables import (CHECK_REL_ERROR, MAX_REFINE, MIN_STATES, NEAR_SATURATION_K, START_NODES, Table,
-                                full_equation)
+                                fluid_states)
 
 T_CHECK_K = 0.05        # outlet temperature from the table against the full equation, at the check points
 PROBES = 12             # full outlet calculations that find the temperature range a valve's outlet visits
@@ -80,7 +80,7 @@ def _worst_miss(table: Table, p: np.ndarray, h: np.ndarray, backend: str) -> tup
     j = np.clip(np.searchsorted(table.t, found["t"][usable]) - 1, 0, len(table.t) - 2)
     mid_p = np.exp(0.5 * (table.lp[i] + table.lp[i + 1]))
     mid_t = 0.5 * (table.t[j] + table.t[j + 1])
-    exact = full_equation(table.fluid, mid_p, mid_t, backend)
+    exact = fluid_states(table.fluid, mid_p, mid_t, backend)
     known = (exact["error"] == "") & (exact["phase"] == "gas")
     if not known.any():
         return 0.0, 0.0

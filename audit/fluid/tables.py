@@ -46,8 +46,9 @@ LOG_FIELDS = ("rho", "pv", "mu")  # interpolated as logarithms (near-exponential
 CHECKED = ("rho", "pv", "mu", "sound_speed", "k")  # what the self-check compares (sizing and noise read them)
 
 
-def full_equation(fluid: Fluid, p: np.ndarray, t: np.ndarray, backend: str = "HEOS") -> dict[str, np.ndarray]:
-    """Full-equation states at (p [Pa], t [K]): ``inlet_properties``, or for a mixture its gas above the envelope."""
+def fluid_states(fluid: Fluid, p: np.ndarray, t: np.ndarray, backend: str = "HEOS") -> dict[str, np.ndarray]:
+    """One fluid's full-equation states at (p [Pa], t [K]): ``inlet_properties``, or for a mixture its gas
+    above the envelope (the table nodes and their checks; ``mixture_gas.full_equation_inlet`` is the line list's)."""
     if fluid.is_mixture:
         return gas_mixture_properties(fluid, p, t)
     return inlet_properties([fluid] * p.size, p, t, np.full(p.size, "", dtype=object), backend)
@@ -63,7 +64,7 @@ class Table:
         self.t = np.linspace(t_lo, t_hi, nodes)
         lp, tt = np.meshgrid(self.lp, self.t, indexing="ij")
         p_nodes, t_nodes = np.exp(lp).ravel(), tt.ravel()
-        full = full_equation(fluid, p_nodes, t_nodes, backend)
+        full = fluid_states(fluid, p_nodes, t_nodes, backend)
         shape = (nodes, nodes)
         self.values = {}
         for name in INLET_FIELDS:
@@ -129,7 +130,7 @@ def _check(table: Table, p: np.ndarray, t: np.ndarray, backend: str) -> float:
     values, usable = table.lookup(p, t)
     if not usable.any():
         return 0.0
-    full = full_equation(table.fluid, p[usable], t[usable], backend)
+    full = fluid_states(table.fluid, p[usable], t[usable], backend)
     worst = 0.0
     for name in CHECKED:
         ref, got = full[name], values[name][usable]
