@@ -69,3 +69,29 @@ def test_smallest_sufficient_c_equals_grid_and_bisection():
     # 1e-11: both brackets are under 4e-13 wide around the same crossing; a looser bound would hide a
     # different root, a tighter one would test rounding (exp/log against repeated square roots).
     np.testing.assert_allclose(hi[found], reference[found], rtol=1e-11)
+
+
+def test_is_sizing_answer_agrees_with_the_search():
+    # The headroom study's shortcut: a coefficient C0 and the flow the forward form gives through it.
+    # Where is_sizing_answer says the search would return C0, the search itself must (to 1e-6; it
+    # stops 4e-13 wide in log C, the answer's own tolerance is 1e-9), and converge.
+    from audit.iec.crossing import is_sizing_answer
+
+    rng = np.random.default_rng(11)
+    c = _random_cases(seed=11)
+    first = sizing.size_valves(**c)
+    c0 = np.where(first["converged"], first["kv"], 10.0) * rng.uniform(0.3, 3.0, c["w"].size)
+    w0 = sizing.flow_through(c0, c["is_gas"], c["p1"], c["p2"], c["t1"], c["rho1"], c["pv"], c["pc"],
+                             c["molar_mass"], c["k"], c["d"], c["d1"], c["d2"], c["fl"], c["xt"])
+    at = dict(c, w=w0)
+    args = [at[k] for k in ("is_gas", "w", "p1", "p2", "t1", "rho1", "pv", "pc", "mu", "molar_mass", "k", "d",
+                            "d1", "d2", "fl", "xt", "fd")]
+    answer = is_sizing_answer(c0, *args)
+    searched = sizing.size_valves(**at)
+    assert answer.mean() > 0.3                      # most random cases are turbulent
+    assert searched["converged"][answer].all()
+    assert np.allclose(searched["kv"][answer], c0[answer], rtol=1e-6, atol=0)
+    # The conditions are not idle: among the cases declined, the search finds another coefficient.
+    with np.errstate(invalid="ignore"):
+        missed = ~answer & ~(np.abs(searched["kv"] / c0 - 1.0) <= 1e-3)
+    assert missed.sum() > 10

@@ -17,7 +17,8 @@ import pandas as pd
 
 from audit.iec import sizing
 from audit.iec.characteristic import cv_ratio_at_travel
-from audit.casetable import size_arrays, sizing_arrays
+from audit.iec.crossing import is_sizing_answer
+from audit.casetable import SIZING_INPUTS, size_arrays, sizing_arrays
 
 _BISECTIONS = 40
 CEILING_OUTLET_SHARE = 0.01  # outlet at 1 % of the inlet pressure: past any choke point
@@ -28,21 +29,35 @@ def _cv_at(a: dict, multiplier: np.ndarray) -> np.ndarray:
     return np.where(r["converged"], r["cv"], np.inf)
 
 
+def _misses(a: dict, m: np.ndarray, cv_target: np.ndarray) -> np.ndarray:
+    """Cases whose sizing at flow multiplier ``m`` misses ``cv_target`` by more than 0.1 %.
+
+    Where the target is provably the sizing's own answer (``crossing.is_sizing_answer``: turbulent,
+    no choke switch below it) it does not miss, and no search is run; the others are sized."""
+    args = [a["w"] * m] + [a[k] for k in SIZING_INPUTS[1:]]
+    off = ~is_sizing_answer(cv_target / sizing.KV_TO_CV, a["gas"], *args)
+    if off.any():
+        sub = {k: v[off] for k, v in a.items()}
+        off[off] = np.abs(_cv_at(sub, m[off]) / cv_target[off] - 1.0) > 1e-3
+    return off
+
+
 def flow_multiplier_to_cv(a: dict, cv_target: np.ndarray, p_out: np.ndarray | None = None) -> np.ndarray:
     """Multiplier m on each case's flow at which the required Cv equals ``cv_target``.
 
     With C known, the flow it takes at the case's pressures follows directly from the forward
     form of the sizing (FP, FLP, xTP are evaluated at that C), so turbulent cases need no
-    iteration.  One sizing run at the multipliers found checks them; cases that miss by more
-    than 0.1 % (non-turbulent flow, where FR moves with the flow) are bisected on log m with
-    the sizing itself, in a bracket from 1e-3 to 1e3.
+    iteration.  The multipliers found are checked: provably (turbulent, no choke switch) without a
+    search, else by one sizing run; cases that miss by more than 0.1 % (non-turbulent flow, where
+    FR moves with the flow) are bisected on log m with the sizing itself, in a bracket from 1e-3
+    to 1e3.
     """
     if p_out is not None:
         a = dict(a, p_out=p_out)
     with np.errstate(invalid="ignore", divide="ignore"):
         m = flow_at(a, cv_target, a["p_out"]) / a["w"]
     m = np.where(np.isfinite(m) & (m > 0), m, 1.0)
-    off = np.abs(_cv_at(a, m) / cv_target - 1.0) > 1e-3
+    off = _misses(a, m, cv_target)
     if off.any():
         sub = {k: v[off] for k, v in a.items()}
         m[off] = _bisect_multiplier(sub, cv_target[off])
