@@ -28,9 +28,11 @@ def sizing_arrays(cases: pd.DataFrame, rows=slice(None)) -> dict[str, np.ndarray
     return a
 
 
+def sizing_args(a: dict[str, np.ndarray], w: np.ndarray | None = None) -> list:
+    """``size_valves``' arguments from ``sizing_arrays`` output, in order (the mass flow replaced by ``w`` if given)."""
+    return [a["gas"], a["w"] if w is None else w] + [a[k] for k in SIZING_INPUTS[1:]]
+
+
 def size_arrays(a: dict[str, np.ndarray], w: np.ndarray | None = None) -> dict[str, np.ndarray]:
     """sizing.size_valves on ``sizing_arrays`` output, with the mass flow replaced by ``w`` if given."""
-    args = [a[k] for k in SIZING_INPUTS]
-    if w is not None:
-        args[0] = w
-    return sizing.size_valves(a["gas"], *args)
+    return sizing.size_valves(*sizing_args(a, w))

@@ -114,10 +114,11 @@ def accepted_units(kind: str) -> list[str]:
 
 
 def _pint_rule(expr: str, si: str) -> UnitRule:
+    ureg = unit_registry()
     if "*" in expr and expr.split("*")[0].replace(".", "").replace("e", "").isdigit():
-        return UnitRule(scale=unit_registry().parse_expression(expr).to(si).magnitude)  # e.g. '42*gallon/day'
-    one = unit_registry().Quantity(1.0, expr).to(si).magnitude
-    zero = unit_registry().Quantity(0.0, expr).to(si).magnitude
+        return UnitRule(scale=ureg.parse_expression(expr).to(si).magnitude)  # e.g. '42*gallon/day'
+    one = ureg.Quantity(1.0, expr).to(si).magnitude
+    zero = ureg.Quantity(0.0, expr).to(si).magnitude
     return UnitRule(scale=one - zero, offset=zero)
 
 

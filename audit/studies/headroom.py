@@ -18,7 +18,7 @@ import pandas as pd
 from audit.iec import sizing
 from audit.iec.characteristic import cv_ratio_at_travel
 from audit.iec.crossing import is_sizing_answer
-from audit.casetable import SIZING_INPUTS, size_arrays, sizing_arrays
+from audit.casetable import size_arrays, sizing_args, sizing_arrays
 
 _BISECTIONS = 40
 CEILING_OUTLET_SHARE = 0.01  # outlet at 1 % of the inlet pressure: past any choke point
@@ -34,8 +34,7 @@ def _misses(a: dict, m: np.ndarray, cv_target: np.ndarray) -> np.ndarray:
 
     Where the target is provably the sizing's own answer (``crossing.is_sizing_answer``: turbulent,
     no choke switch below it) it does not miss, and no search is run; the others are sized."""
-    args = [a["w"] * m] + [a[k] for k in SIZING_INPUTS[1:]]
-    off = ~is_sizing_answer(cv_target / sizing.KV_TO_CV, a["gas"], *args)
+    off = ~is_sizing_answer(cv_target / sizing.KV_TO_CV, *sizing_args(a, a["w"] * m))
     if off.any():
         sub = {k: v[off] for k, v in a.items()}
         off[off] = np.abs(_cv_at(sub, m[off]) / cv_target[off] - 1.0) > 1e-3
