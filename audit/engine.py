@@ -118,6 +118,7 @@ def add_properties(cases: pd.DataFrame, ll: LineList, options: Options) -> None:
     for name, arr in out.items():
         cases[name] = arr
     cases["h_in"] = props["h"]
+    cases["jt_in"] = props["jt"]  # the outlet's first guess (add_outlet_state)
     cases["phase"] = phase
     err = cases["case_error"].to_numpy(dtype=object).copy()
     err = np.where((err == "") & (props["error"] != ""), props["error"], err)
@@ -249,8 +250,11 @@ def add_outlet_state(cases: pd.DataFrame, ll: LineList, options: Options) -> Non
     if options.property_tables:  # many samples: gas outlets from checked tables, one per valve
         flash = outlet_tables.tabulated_outlet(fluids, p2, h1, options.backend, t_in=t1, gas=gas, groups=v)
     else:
+        # A pure gas's Newton steps start from the Joule-Thomson estimate of the outlet temperature.
+        jt, p1 = cases["jt_in"].to_numpy(float), cases["p_in"].to_numpy(float)
+        start = np.where(np.isfinite(jt), t1 + jt * (p2 - p1), t1)
         flash = in_parts(lambda a, b: outlet.isenthalpic_outlet(fluids[a:b], p2[a:b], h1[a:b], options.backend,
-                                                                t_in=t1[a:b], gas=gas[a:b]),
+                                                                t_in=t1[a:b], gas=gas[a:b], t_start=start[a:b]),
                          len(fluids), PART_MIN_STATES)
     rho1, p1 = (cases[c].to_numpy(float) for c in ("rho", "p_in"))
     k, m, z = (cases[c].to_numpy(float) for c in ("k", "molar_mass", "z"))

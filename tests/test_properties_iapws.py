@@ -47,3 +47,20 @@ def test_saturated_inlet_is_audited_as_saturated_liquid_with_a_note():
     stated = inlet_properties([WATER], np.array([psat]), np.array([423.10]), np.array(["gas"], dtype=object))
     assert stated["error"][0] == "" and stated["phase"][0] == "gas"
     assert stated["rho"][0] == pytest.approx(iapws.IAPWS97(T=423.15, x=1).rho, rel=1e-3)
+
+
+@pytest.mark.parametrize("p,t", [(2e5, 423.15), (10e5, 523.15), (40e5, 673.15), (100e5, 623.15)])
+def test_steam_joule_thomson_matches_iapws95(p, t):
+    # The outlet's first guess T1 + mu_JT (p2 - p1) (audit.engine.add_outlet_state).  CoolProp's water is
+    # IAPWS-95, as is iapws.IAPWS95 (its `joule` in K/MPa): the same formulation's analytic derivative on
+    # both sides, so only the density iterations differ (2e-10 seen); 1e-6 leaves room for them.
+    ref = iapws.IAPWS95(P=p / 1e6, T=t)
+    out = inlet_properties([WATER], np.array([p]), np.array([t]), np.array([""], dtype=object))
+    assert out["phase"][0] == "gas"
+    assert out["jt"][0] * 1e6 == pytest.approx(ref.joule, rel=1e-6)
+
+
+def test_joule_thomson_is_left_out_for_liquids():
+    # Only a gas outlet starts from it; a liquid row's inlet leaves it NaN (no derivative taken).
+    out = inlet_properties([WATER], np.array([10e5]), np.array([323.15]), np.array([""], dtype=object))
+    assert out["phase"][0] == "liquid" and np.isnan(out["jt"][0])

@@ -42,7 +42,7 @@ class StateError(ValueError):
     """A state the sizing cannot use, with a message for the plant engineer."""
 
 
-INLET_FIELDS = ("rho", "pv", "pc", "mu", "molar_mass", "z", "k", "sound_speed", "h", "t")
+INLET_FIELDS = ("rho", "pv", "pc", "mu", "molar_mass", "z", "k", "sound_speed", "h", "t", "jt")
 
 
 @dataclass
@@ -128,7 +128,20 @@ def read_state(st: State, phase: str, pv: float) -> tuple:
         kappa = kappa if np.isfinite(kappa) else _ideal_ratio(st)
     else:
         kappa = s.cpmass() / s.cvmass()
-    return (rho, pv, st.pc, s.viscosity(), st.molar_mass, z, kappa, sound, s.hmass(), s.T())
+    jt = _joule_thomson(s) if phase == "gas" and not st.fluid.is_mixture else float("nan")
+    return (rho, pv, st.pc, s.viscosity(), st.molar_mass, z, kappa, sound, s.hmass(), s.T(), jt)
+
+
+def _joule_thomson(s: AbstractState) -> float:
+    """(dT/dp) at constant h [K/Pa] of the current state; NaN where the backend has none.
+
+    Only the outlet's first guess T1 + mu_JT (p2 - p1) uses it: within a few tenths of a kelvin
+    of the isenthalpic outlet for most gas valves, so its Newton steps start close.
+    """
+    try:
+        return s.first_partial_deriv(CP.iT, CP.iP, CP.iHmass)
+    except ValueError:
+        return float("nan")
 
 
 def _inlet_state(st: State, p: float, t: float, phase_given: str, quality: float = float("nan")) -> tuple:
@@ -290,7 +303,8 @@ def inlet_properties(fluids: list[Fluid | None], p: np.ndarray, t: np.ndarray,
     Returns arrays rho [kg/m3], pv [Pa], pc [Pa], mu [Pa s], molar_mass
     [kg/kmol], z, k (gas: the isentropic exponent rho c^2 / p, see
     ``isentropic_exponent``; liquid: cp/cv, unused), sound_speed [m/s],
-    h [J/kg], t [K] (the temperature used), phase, note, error.
+    h [J/kg], t [K] (the temperature used), jt [K/Pa] (Joule-Thomson
+    coefficient of a pure gas; NaN otherwise), phase, note, error.
     """
     n = len(fluids)
     quality = np.full(n, np.nan) if quality is None else np.asarray(quality, float)
