@@ -26,3 +26,13 @@ def test_benchmark_script_runs_at_a_small_size(capsys):
     out = capsys.readouterr().out
     for text in ("valve-cases/s", "growth for 10x", "peak memory", "faster per case", "HTML", "PDF"):
         assert text in out
+
+
+def test_median_run_takes_median_times_and_highest_memory():
+    # --audit-repeat: a noisy machine's slow run moves no judged time, and a target on memory is a ceiling.
+    runs = [{"seconds": s, "end_to_end": s + 2, "import_seconds": 2.0, "peak_mb": m, "tree_pss_mb": m, "rss_mb": m,
+             "stages": {"rules": s / 5}, "early": True, "cases": 6}
+            for s, m in ((5.0, 300.0), (9.0, 390.0), (6.0, 310.0))]
+    r = bench_audit._median_run(runs)
+    assert (r["seconds"], r["end_to_end"], r["stages"]["rules"]) == (6.0, 8.0, 1.2)
+    assert r["peak_mb"] == 390.0 and r["cases"] == 6
