@@ -170,3 +170,39 @@ def test_cli_error_same_with_early_read(tmp_path):
                           "--quiet"], capture_output=True, text=True, cwd=ROOT, timeout=300)
     assert run.returncode == 3, run.stderr
     assert "column 'tag' appears twice in the header" in run.stderr
+
+
+# In a fresh interpreter (stderr is the child's too): a reading that warns, in a child that succeeds
+# or fails after the warning; the parent reads the file itself after a failure, as run_audit does.
+WARNS = r"""
+import os, sys, warnings
+import audit.io.loader as loader
+from audit.io.early import start_reading
+from audit.io.reader import Limits
+path, mode, parent = sys.argv[1], sys.argv[2], os.getpid()
+real = loader.read_linelist
+def noisy(*a, **k):
+    warnings.warn("a workbook feature was dropped", UserWarning)
+    if mode == "fail" and os.getpid() != parent:
+        raise RuntimeError("the child fails after the warning")
+    return real(*a, **k)
+loader.read_linelist = noisy
+job = start_reading(path, None, 101325.0, Limits())
+assert job is not None, "the early read declined"
+read = job.collect(path, None, 101325.0, Limits())
+print("child" if read is not None else "parent")
+if read is None:
+    loader.load_linelist(path, None, 101325.0, Limits())
+"""
+
+
+@pytest.mark.parametrize("mode,reader", [("ok", "child"), ("fail", "parent")])
+def test_reading_warning_shown_once(tmp_path, mode, reader):
+    # The child keeps its warnings and the parent shows them when it uses the child's tables; a
+    # child that fails shows none, so the parent's own reading shows it once (twice before).
+    path = tmp_path / "hostile.csv"
+    path.write_text(HOSTILE)
+    run = _fresh(WARNS, str(path), mode)
+    assert run.returncode == 0, run.stderr
+    assert run.stdout.strip() == reader
+    assert run.stderr.count("a workbook feature was dropped") == 1, run.stderr

@@ -12,7 +12,10 @@ Only an optimisation: wherever it cannot help or anything goes wrong in the chil
 standard input or another file that is not a regular one and so reads only once, a file too
 large for the copy through the pipe to be worth it, CoolProp already imported, an unreadable
 file), ``collect`` answers None and the caller reads the file itself, so every error appears as
-it would without this module.  Imports nothing of the tool at module level.
+it would without this module.  The child keeps the warnings its reading raises (a workbook
+feature the reader drops, say) and sends them with the tables; they are shown here when the
+result is used, so a warning appears once even where the file has to be read again.  Imports
+nothing of the tool at module level.
 """
 from __future__ import annotations
 
@@ -20,6 +23,7 @@ import os
 import pickle
 import stat
 import sys
+import warnings
 from pathlib import Path
 
 # Above these sizes the audit takes long enough that the second saved is small beside it, and the
@@ -44,9 +48,12 @@ class EarlyRead:
         if data is None or self.key != _key(path, sheet, p_atm, limits):
             return None
         try:
-            return pickle.loads(data)
+            read, caught = pickle.loads(data)
         except Exception:  # noqa: BLE001 - a damaged transfer: read the file here instead
             return None
+        for message, category, filename, lineno in caught:  # as they would have shown, read here
+            warnings.warn_explicit(message, category, filename, lineno)
+        return read
 
     def cancel(self) -> None:
         """End the child without its result (the run stopped before reading)."""
@@ -105,7 +112,10 @@ def _child(fd: int, path, sheet, p_atm, limits) -> int:
 
         use_system_allocator_for_text()  # as the run itself would read (audit.memory)
         extra = {} if p_atm is None else {"p_atm": p_atm}
-        data = pickle.dumps(read_linelist(path, sheet, limits=limits, **extra), protocol=pickle.HIGHEST_PROTOCOL)
+        with warnings.catch_warnings(record=True) as caught:  # shown by the parent, once (module docstring)
+            read = read_linelist(path, sheet, limits=limits, **extra)
+        kept = [(str(w.message), w.category, w.filename, w.lineno) for w in caught]
+        data = pickle.dumps((read, kept), protocol=pickle.HIGHEST_PROTOCOL)
         with os.fdopen(fd, "wb") as pipe:
             pipe.write(data)
     except BaseException:  # noqa: BLE001 - any failure: the parent reads the file itself, and reports it
