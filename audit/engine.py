@@ -246,17 +246,17 @@ def add_outlet_state(cases: pd.DataFrame, ll: LineList, options: Options) -> Non
     # liquids and gases need the (h, p) flash.
     need = ok & ~custom & (gas | flashing)
     fluids = [f if want else None for f, want in zip(fluid_objs, need)]
-    h1, t1 = cases["h_in"].to_numpy(float), cases["t_in"].to_numpy(float)
+    h1, t1, p1 = (cases[c].to_numpy(float) for c in ("h_in", "t_in", "p_in"))
     if options.property_tables:  # many samples: gas outlets from checked tables, one per valve
         flash = outlet_tables.tabulated_outlet(fluids, p2, h1, options.backend, t_in=t1, gas=gas, groups=v)
     else:
         # A pure gas's Newton steps start from the Joule-Thomson estimate of the outlet temperature.
-        jt, p1 = cases["jt_in"].to_numpy(float), cases["p_in"].to_numpy(float)
+        jt = cases["jt_in"].to_numpy(float)
         start = np.where(np.isfinite(jt), t1 + jt * (p2 - p1), t1)
         flash = in_parts(lambda a, b: outlet.isenthalpic_outlet(fluids[a:b], p2[a:b], h1[a:b], options.backend,
                                                                 t_in=t1[a:b], gas=gas[a:b], t_start=start[a:b]),
                          len(fluids), PART_MIN_STATES)
-    rho1, p1 = (cases[c].to_numpy(float) for c in ("rho", "p_in"))
+    rho1 = cases["rho"].to_numpy(float)
     k, m, z = (cases[c].to_numpy(float) for c in ("k", "molar_mass", "z"))
     z = np.where(np.isfinite(z), z, 1.0)
     rho_custom = np.where(gas, rho1 * p2 / p1, rho1)  # also every liquid that does not flash
