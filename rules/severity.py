@@ -172,7 +172,7 @@ def adjust_for_service(found: pd.DataFrame, cases: pd.DataFrame, thresholds: dic
     designed_flash = (intent == "flashing") & ((code == "FLASHING") | (choke_codes & flashing))
     move(designed_flash, N, "a note: the service is designed to flash; watch outlet erosion and the trim and body "
                             "material")
-    designed_choke = (intent == "choked") & np.isin(code, ("CHOKED", "CHOKE_NEAR")) & gas
+    designed_choke = (intent == "choked") & choke_codes & gas
     move(designed_choke, N, "a note: the service is designed to run choked and still controls by its inlet "
                             "pressure; watch trim wear and noise")
     exposure = "on this duty the question is how long people may be exposed, not whether"
